@@ -1,0 +1,142 @@
+"""Resonance-free boundary integral equations for impenetrable bodies.
+
+Glossary
+--------
+u, psi
+    The total field on the boundary and its normal derivative (normal out
+    of the body, into the surrounding medium).
+Green's representation
+    For x outside every body, ``u(x) = u_inc(x) + int (u dG/dn_y - G psi) ds_y``.
+    Its boundary limits (jump relations in ``operators``) give
+    ``(E1)  u/2 - D u + S psi = u_inc`` and
+    ``(E2)  psi/2 + D' psi - T u = du_inc/dn``.
+boundary conditions
+    ``dirichlet``: u = 0 (TM PEC, sound-soft); unknown psi.
+    ``neumann``: psi = 0 (TE PEC, sound-hard); unknown u.
+    ``robin``: psi = lam u (impedance surfaces); unknown u.
+combined equations
+    Dirichlet rows use ``E2 + beta E1`` (the direct combined-field
+    equation), the others ``E1 + alpha E2`` (Burton & Miller, Proc. R.
+    Soc. A 323, 1971). A non-zero solution of the homogeneous system would
+    give an interior field with ``dw/dn = -beta w`` (or ``w = -alpha dw/dn``)
+    on the boundary; Green's first identity makes its imaginary part force
+    ``w = 0`` whenever the coupling is not real, so no frequency is
+    resonant. The circle's interior eigenfrequencies (zeros of J0 and J1')
+    are checked in the tests.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .operators import Operators
+
+__all__ = [
+    "DIRICHLET",
+    "NEUMANN",
+    "ROBIN",
+    "SurfaceConditions",
+    "coupling_constants",
+    "needed_operators",
+    "right_hand_sides",
+    "surface_traces",
+    "system_matrix",
+]
+
+ComplexArray = NDArray[np.complex128]
+
+DIRICHLET, NEUMANN, ROBIN = 0, 1, 2
+
+
+@dataclass(frozen=True)
+class SurfaceConditions:
+    """Boundary condition of every node: a kind code and the Robin factor ``lam``.
+
+    ``psi = lam * u`` on Robin nodes; ``lam`` is ignored elsewhere.
+    """
+
+    kind: NDArray[np.int64]
+    lam: ComplexArray
+
+    @property
+    def has_dirichlet(self) -> bool:
+        """True if any node is Dirichlet."""
+        return bool(np.any(self.kind == DIRICHLET))
+
+    @property
+    def has_u_unknowns(self) -> bool:
+        """True if any node carries u as its unknown (Neumann or Robin)."""
+        return bool(np.any(self.kind != DIRICHLET))
+
+    @property
+    def has_robin(self) -> bool:
+        """True if any node is Robin with a non-zero factor."""
+        return bool(np.any((self.kind == ROBIN) & (self.lam != 0)))
+
+
+def coupling_constants(k: complex) -> tuple[complex, complex]:
+    """``(alpha, beta)`` for the combined equations; both have non-zero imaginary parts.
+
+    The scaling with ``k`` balances the two equations: ``psi ~ k u``.
+    """
+    kr = abs(k)
+    return (-1j / kr, -1j * kr)
+
+
+def _columns(cond: SurfaceConditions) -> tuple[ComplexArray, ComplexArray]:
+    """How each unknown maps to (u, psi) at its node."""
+    is_d = cond.kind == DIRICHLET
+    p_u = np.where(is_d, 0.0, 1.0).astype(complex)
+    p_psi = np.where(is_d, 1.0, np.where(cond.kind == ROBIN, cond.lam, 0.0)).astype(complex)
+    return p_u, p_psi
+
+
+def _rows(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArray]:
+    alpha, beta = coupling_constants(k)
+    is_d = cond.kind == DIRICHLET
+    c1 = np.where(is_d, beta, 1.0).astype(complex)
+    c2 = np.where(is_d, 1.0, alpha).astype(complex)
+    return c1, c2
+
+
+def system_matrix(ops: Operators, cond: SurfaceConditions) -> ComplexArray:
+    """The combined system ``A x = b`` for the unknown of every node."""
+    p_u, p_psi = _columns(cond)
+    c1, c2 = _rows(cond, ops.k)
+    n = p_u.size
+    a = np.zeros((n, n), dtype=complex)
+    if np.any(p_u != 0):
+        assert ops.D is not None and ops.T is not None
+        a -= c1[:, None] * ops.D * p_u[None, :]
+        a -= c2[:, None] * ops.T * p_u[None, :]
+    if np.any(p_psi != 0):
+        assert ops.S is not None and ops.Dp is not None
+        a += c1[:, None] * ops.S * p_psi[None, :]
+        a += c2[:, None] * ops.Dp * p_psi[None, :]
+    a[np.diag_indices(n)] += 0.5 * (c1 * p_u + c2 * p_psi)
+    return a
+
+
+def right_hand_sides(
+    cond: SurfaceConditions, k: complex, u_inc: ComplexArray, dn_inc: ComplexArray
+) -> ComplexArray:
+    """Right-hand sides (one column per incident wave) matching ``system_matrix``."""
+    c1, c2 = _rows(cond, k)
+    return c1[:, None] * u_inc + c2[:, None] * dn_inc
+
+
+def surface_traces(cond: SurfaceConditions, x: ComplexArray) -> tuple[ComplexArray, ComplexArray]:
+    """Total field ``u`` and normal derivative ``psi`` on the boundary from the unknowns."""
+    p_u, p_psi = _columns(cond)
+    return p_u[:, None] * x, p_psi[:, None] * x
+
+
+def needed_operators(cond: SurfaceConditions) -> dict[str, bool]:
+    """Which operators the system needs (keyword arguments of ``assemble_operators``)."""
+    p_u, p_psi = _columns(cond)
+    has_u = bool(np.any(p_u != 0))
+    has_psi = bool(np.any(p_psi != 0))
+    return {"need_s": has_psi or has_u, "need_d": has_u, "need_dp": has_psi, "need_t": has_u}
