@@ -86,25 +86,30 @@ def coupling_constants(k: complex) -> tuple[complex, complex]:
     return (-1j / kr, -1j * kr)
 
 
-def _columns(cond: SurfaceConditions) -> tuple[ComplexArray, ComplexArray]:
-    """How each unknown maps to (u, psi) at its node."""
+def _columns(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArray]:
+    """How each unknown maps to (u, psi) at its node.
+
+    Dirichlet unknowns are ``psi / |k|`` so that every unknown has the
+    size of the field itself; this balances the columns of mixed scenes.
+    """
     is_d = cond.kind == DIRICHLET
     p_u = np.where(is_d, 0.0, 1.0).astype(complex)
-    p_psi = np.where(is_d, 1.0, np.where(cond.kind == ROBIN, cond.lam, 0.0)).astype(complex)
+    p_psi = np.where(is_d, abs(k), np.where(cond.kind == ROBIN, cond.lam, 0.0)).astype(complex)
     return p_u, p_psi
 
 
 def _rows(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArray]:
+    """Row weights; Dirichlet rows are divided by ``|k|`` (a pure scaling)."""
     alpha, beta = coupling_constants(k)
     is_d = cond.kind == DIRICHLET
-    c1 = np.where(is_d, beta, 1.0).astype(complex)
-    c2 = np.where(is_d, 1.0, alpha).astype(complex)
+    c1 = np.where(is_d, beta / abs(k), 1.0).astype(complex)
+    c2 = np.where(is_d, 1.0 / abs(k), alpha).astype(complex)
     return c1, c2
 
 
 def system_matrix(ops: Operators, cond: SurfaceConditions) -> ComplexArray:
     """The combined system ``A x = b`` for the unknown of every node."""
-    p_u, p_psi = _columns(cond)
+    p_u, p_psi = _columns(cond, ops.k)
     c1, c2 = _rows(cond, ops.k)
     n = p_u.size
     a = np.zeros((n, n), dtype=complex)
@@ -128,15 +133,17 @@ def right_hand_sides(
     return c1[:, None] * u_inc + c2[:, None] * dn_inc
 
 
-def surface_traces(cond: SurfaceConditions, x: ComplexArray) -> tuple[ComplexArray, ComplexArray]:
+def surface_traces(
+    cond: SurfaceConditions, k: complex, x: ComplexArray
+) -> tuple[ComplexArray, ComplexArray]:
     """Total field ``u`` and normal derivative ``psi`` on the boundary from the unknowns."""
-    p_u, p_psi = _columns(cond)
+    p_u, p_psi = _columns(cond, k)
     return p_u[:, None] * x, p_psi[:, None] * x
 
 
 def needed_operators(cond: SurfaceConditions) -> dict[str, bool]:
     """Which operators the system needs (keyword arguments of ``assemble_operators``)."""
-    p_u, p_psi = _columns(cond)
+    p_u, p_psi = _columns(cond, 1.0)
     has_u = bool(np.any(p_u != 0))
     has_psi = bool(np.any(p_psi != 0))
     return {"need_s": has_psi or has_u, "need_d": has_u, "need_dp": has_psi, "need_t": has_u}

@@ -342,23 +342,45 @@ def _ratio_violations(mesh: PanelMesh) -> list[int]:
 
 
 def _gap_violations(mesh: PanelMesh) -> list[int]:
-    """Panels longer than GAP_RATIO times their distance to non-adjacent boundary."""
-    prev, nxt = mesh.neighbours()
+    """Panels longer than GAP_RATIO times their distance to boundary far along the contour.
+
+    Boundary counts as "far" when it belongs to another contour, or to the
+    same contour but more than two panel lengths away along it: a thin slot
+    or a narrow gap between bodies, not just the next panels of a smooth curve.
+    """
     tree = cKDTree(mesh.nodes)
-    pan = mesh.panel_of_node
+    p = mesh.p
+    contour = mesh.contour_of_node
+    # Arc-length position of every node and panel start along its contour.
+    arc_node = np.empty(mesh.n_nodes)
+    start = np.empty(mesh.n_panels)
+    total = {}
+    for c in np.unique(mesh.contour_of_panel):
+        idx = np.flatnonzero(mesh.contour_of_panel == c)
+        lens = mesh.lengths[idx]
+        s0 = np.concatenate([[0.0], np.cumsum(lens)[:-1]])
+        start[idx] = s0
+        total[int(c)] = float(lens.sum())
+        w = mesh.weights.reshape(mesh.n_panels, p)[idx]
+        within = np.cumsum(w, axis=1) - 0.5 * w
+        arc_node[(idx[:, None] * p + np.arange(p)).ravel()] = (s0[:, None] + within).ravel()
     bad: list[int] = []
     for i in range(mesh.n_panels):
         length = mesh.lengths[i]
-        own = mesh.nodes[i * mesh.p : (i + 1) * mesh.p]
+        own = mesh.nodes[i * p : (i + 1) * p]
         hits = tree.query_ball_point(own, r=length / GAP_RATIO)
-        allowed = {i, int(prev[i]), int(nxt[i])}
-        for row, near in zip(own, hits):
-            others = [j for j in near if int(pan[j]) not in allowed]
-            if not others:
+        c = int(mesh.contour_of_panel[i])
+        a, b, loop = start[i], start[i] + length, total[c]
+        for near in hits:
+            if not near:
                 continue
-            # Same contour, but far along it (a thin slot): also a gap.
-            dist = np.min(np.hypot(*(mesh.nodes[others] - row).T))
-            if dist * GAP_RATIO < length:
+            j = np.array(near)
+            same = contour[j] == c
+            s_j = arc_node[j]
+            # circular distance from s_j to the interval [a, b]
+            d = np.where((s_j >= a) & (s_j <= b), 0.0, np.minimum(np.abs(s_j - a), np.abs(s_j - b)))
+            d = np.minimum(d, loop - np.maximum(np.abs(s_j - a), np.abs(s_j - b)))
+            if np.any(~same | (d > 2.0 * length)):
                 bad.append(i)
                 break
     return bad

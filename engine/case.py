@@ -1,0 +1,577 @@
+"""Case files (TOML): the object, the wave, and what to compute.
+
+Glossary
+--------
+case
+    One TOML document; every key is checked, unknown keys are errors.
+scene
+    The validated case: bodies with their boundary conditions, the wave
+    (field kind and frequencies), incident waves, far-field angles and the
+    solver settings, all in SI units.
+number, list or range
+    Frequencies and angles accept ``9.4e9``, ``[1e9, 2e9]`` or
+    ``{ start = 0, stop = 360, count = 73 }`` (both ends included).
+
+The schema (keys may be added, never renamed)::
+
+    title = "..."
+    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...,
+                  sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
+    [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
+    [[body]]      name, shape = {kind = ...} | layer = "NAME" | point_m = [x, y],
+                  boundary = "pec" | "soft" | "hard" | "impedance",
+                  impedance = number or [re, im] (normalised to the medium)
+    [[incident]]  kind = "plane", from_deg = ...  |  kind = "line", position_m = [x, y]
+    [far_field]   angles_deg = ...
+    [near_field]  x_m = [min, max], y_m = [min, max], spacing_m = ... | count = [nx, ny],
+                  probes_csv = "probes.csv"
+    [solver]      tolerance = 1e-8, nodes_per_panel = 16, max_panel_wavelengths = auto,
+                  max_refinements = 4
+    [output]      time_convention = "engineering" | "physics", plots = true, vtk = true
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from sectionwave.importers.curves import (
+    Body,
+    Contour,
+    EllipticalArc,
+    Line,
+    circular_arc,
+)
+from sectionwave.importers.errors import SectionwaveError
+
+__all__ = [
+    "BodySpec",
+    "CaseError",
+    "IncidentSpec",
+    "NearFieldSpec",
+    "Scene",
+    "load_case",
+    "parse_case",
+]
+
+SPEED_OF_LIGHT_M_S = 299_792_458.0
+#: Air at 20 degC, 1 atm (common practice values).
+SOUND_SPEED_AIR_M_S = 343.0
+DENSITY_AIR_KG_M3 = 1.204
+#: Permeability of free space (SI 2019 value, to 10 digits).
+MU0_H_M = 1.25663706212e-6
+
+FIELDS = ("tm", "te", "acoustic")
+BOUNDARIES = {
+    "tm": ("pec", "impedance"),
+    "te": ("pec", "impedance"),
+    "acoustic": ("soft", "hard", "impedance"),
+}
+
+
+class CaseError(SectionwaveError, ValueError):
+    """A case file is malformed; the message names the file, the key and what is allowed."""
+
+
+@dataclass(frozen=True)
+class BodySpec:
+    """One body of the scene and its boundary condition."""
+
+    name: str
+    body: Body
+    boundary: str
+    impedance: complex | None = None
+    source: str = "inline shape"
+
+
+@dataclass(frozen=True)
+class IncidentSpec:
+    """Plane waves from a list of angles, or a line source at a point."""
+
+    kind: str
+    from_deg: tuple[float, ...] = ()
+    position_m: tuple[float, float] | None = None
+    name: str = ""
+
+
+@dataclass(frozen=True)
+class NearFieldSpec:
+    """A rectangular grid of field points and/or probe points."""
+
+    x: np.ndarray | None
+    y: np.ndarray | None
+    probes: np.ndarray | None
+
+
+@dataclass
+class Scene:
+    """A validated case, in SI units."""
+
+    title: str
+    field: str
+    frequencies_hz: tuple[float, ...]
+    wave_speed_m_s: float
+    density_kg_m3: float
+    bodies: list[BodySpec]
+    incidents: list[IncidentSpec]
+    far_field_deg: np.ndarray
+    tolerance: float = 1e-8
+    nodes_per_panel: int = 16
+    max_panel_wavelengths: float | None = None
+    max_refinements: int = 4
+    time_convention: str = "engineering"
+    plots: bool = True
+    vtk: bool = True
+    near_field: NearFieldSpec | None = None
+    source: str = "<case>"
+    drawing_audit: dict[str, Any] | None = None
+    notes: list[str] = field(default_factory=list)
+
+    def wavenumber(self, frequency_hz: float) -> float:
+        """``k = 2 pi f / c`` in rad/m."""
+        return 2 * math.pi * frequency_hz / self.wave_speed_m_s
+
+    def wavelength(self, frequency_hz: float) -> float:
+        """``c / f`` in metres."""
+        return self.wave_speed_m_s / frequency_hz
+
+
+class _Reader:
+    """Typed access to one TOML table, with errors that name file and key."""
+
+    def __init__(self, source: str, table: Mapping[str, Any], where: str) -> None:
+        self.source, self.table, self.where = source, table, where
+        self.used: set[str] = set()
+
+    def fail(self, key: str, message: str) -> CaseError:
+        place = f"{self.where}.{key}" if self.where else key
+        return CaseError(f"{self.source}: [{place}] {message}")
+
+    def get(self, key: str, default: Any = None) -> Any:
+        self.used.add(key)
+        return self.table.get(key, default)
+
+    def has(self, key: str) -> bool:
+        return key in self.table
+
+    def number(self, key: str, default: float | None = None, *, positive: bool = False) -> float:
+        value = self.get(key, default)
+        if value is None:
+            raise self.fail(key, "is required (a number)")
+        if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+            raise self.fail(key, f"must be a finite number, got {value!r}")
+        if positive and value <= 0:
+            raise self.fail(key, f"must be positive, got {value!r}")
+        return float(value)
+
+    def text(self, key: str, default: str | None = None, choices: tuple[str, ...] = ()) -> str:
+        value = self.get(key, default)
+        if value is None:
+            raise self.fail(key, "is required (a string)" + (f": one of {', '.join(choices)}" if choices else ""))
+        if not isinstance(value, str):
+            raise self.fail(key, f"must be a string, got {value!r}")
+        if choices and value not in choices:
+            raise self.fail(key, f"is {value!r}; allowed: {', '.join(choices)}")
+        return value
+
+    def point(self, key: str, default: Any = None) -> tuple[float, float]:
+        value = self.get(key, default)
+        if (
+            not isinstance(value, list | tuple)
+            or len(value) != 2
+            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
+        ):
+            raise self.fail(key, f"must be a pair of numbers [x, y] in metres, got {value!r}")
+        return float(value[0]), float(value[1])
+
+    def values(self, key: str, *, positive: bool = False) -> tuple[float, ...]:
+        """A number, a list of numbers, or {start, stop, count}."""
+        value = self.get(key)
+        if value is None:
+            raise self.fail(key, "is required: a number, a list, or {start =, stop =, count =}")
+        if isinstance(value, Mapping):
+            extra = set(value) - {"start", "stop", "count"}
+            if extra or set(value) != {"start", "stop", "count"}:
+                raise self.fail(key, f"a range needs exactly start, stop and count, got {sorted(value)}")
+            count = value["count"]
+            if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+                raise self.fail(key, f"count must be a positive integer, got {count!r}")
+            start, stop = value["start"], value["stop"]
+            for v in (start, stop):
+                if isinstance(v, bool) or not isinstance(v, int | float):
+                    raise self.fail(key, f"start and stop must be numbers, got {v!r}")
+            out = tuple(float(v) for v in np.linspace(start, stop, count))
+        elif isinstance(value, list):
+            if not value:
+                raise self.fail(key, "is an empty list")
+            out = tuple(self._scalar(key, v) for v in value)
+        else:
+            out = (self._scalar(key, value),)
+        if positive and any(v <= 0 for v in out):
+            raise self.fail(key, f"values must be positive, got {value!r}")
+        return out
+
+    def _scalar(self, key: str, v: Any) -> float:
+        if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v):
+            raise self.fail(key, f"must hold finite numbers, got {v!r}")
+        return float(v)
+
+    def finish(self) -> None:
+        unknown = sorted(set(self.table) - self.used)
+        if unknown:
+            raise self.fail(
+                unknown[0], f"is not a known key here; known keys: {', '.join(sorted(self.used))}"
+            )
+
+
+def _rotation(deg: float) -> np.ndarray:
+    a = math.radians(deg)
+    return np.array([[math.cos(a), -math.sin(a)], [math.sin(a), math.cos(a)]])
+
+
+def _inline_shape(r: _Reader) -> Body:
+    kind = r.text("kind", choices=("circle", "ellipse", "rectangle", "polygon"))
+    center = np.array(r.point("center_m", [0.0, 0.0]))
+    rot = _rotation(r.number("rotation_deg", 0.0)) if kind != "circle" else np.eye(2)
+    if kind == "circle":
+        contour = Contour((circular_arc(center, r.number("radius_m", positive=True), 0.0, 2 * math.pi),))
+    elif kind == "ellipse":
+        axes = r.get("semi_axes_m")
+        if (
+            not isinstance(axes, list)
+            or len(axes) != 2
+            or not all(isinstance(a, int | float) and not isinstance(a, bool) and a > 0 for a in axes)
+        ):
+            raise r.fail("semi_axes_m", f"must be two positive numbers [a, b] in metres, got {axes!r}")
+        contour = Contour((EllipticalArc(center, rot @ np.diag(axes), 0.0, 2 * math.pi),))
+    elif kind == "rectangle":
+        w = r.number("width_m", positive=True)
+        h = r.number("height_m", positive=True)
+        rc = r.number("corner_radius_m", 0.0)
+        if rc < 0 or rc > 0.5 * min(w, h):
+            raise r.fail("corner_radius_m", f"must be between 0 and half the shorter side ({0.5 * min(w, h)!r}), got {rc!r}")
+        contour = _rounded_rectangle(w, h, rc).transformed(rot, center)
+    else:
+        pts = r.get("points_m")
+        if (
+            not isinstance(pts, list)
+            or len(pts) < 3
+            or not all(isinstance(p, list) and len(p) == 2 for p in pts)
+        ):
+            raise r.fail("points_m", "must be a list of at least 3 points [[x, y], ...] in metres")
+        arr = np.array(pts, dtype=float) @ rot.T + center
+        contour = Contour(tuple(Line(arr[i], arr[(i + 1) % len(arr)]) for i in range(len(arr))))
+        _check_simple_polygon(r, arr)
+    r.finish()
+    return Body(contour)
+
+
+def _check_simple_polygon(r: _Reader, pts: np.ndarray) -> None:
+    from shapely.geometry import Polygon
+
+    poly = Polygon(pts)
+    if not poly.is_valid or poly.area <= 0:
+        from shapely.validation import explain_validity
+
+        raise r.fail("points_m", f"does not form a simple polygon ({explain_validity(poly)})")
+
+
+def _rounded_rectangle(w: float, h: float, rc: float) -> Contour:
+    """Counter-clockwise rectangle centred at the origin with optional round corners."""
+    hx, hy = 0.5 * w, 0.5 * h
+    if rc == 0:
+        pts = np.array([[-hx, -hy], [hx, -hy], [hx, hy], [-hx, hy]])
+        return Contour(tuple(Line(pts[i], pts[(i + 1) % 4]) for i in range(4)))
+    segs: list[Any] = []
+    corners = [(hx - rc, -hy + rc, -0.5 * math.pi), (hx - rc, hy - rc, 0.0),
+               (-hx + rc, hy - rc, 0.5 * math.pi), (-hx + rc, -hy + rc, math.pi)]
+    for i, (cx, cy, a0) in enumerate(corners):
+        arc = circular_arc((cx, cy), rc, a0, 0.5 * math.pi)
+        segs.append(arc)
+        nxt = corners[(i + 1) % 4]
+        start = arc.end
+        a1 = nxt[2]
+        end = np.array([nxt[0] + rc * math.cos(a1), nxt[1] + rc * math.sin(a1)])
+        if np.hypot(*(end - start)) > 1e-15 * max(w, h):
+            segs.append(Line(start, end))
+    return Contour(tuple(segs))
+
+
+def _impedance(r: _Reader) -> complex:
+    value = r.get("impedance")
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        z = complex(value)
+    elif isinstance(value, list) and len(value) == 2 and all(isinstance(v, int | float) for v in value):
+        z = complex(value[0], value[1])
+    else:
+        raise r.fail("impedance", f"must be a number or [re, im] (normalised to the medium's wave impedance), got {value!r}")
+    if z.real < 0:
+        raise r.fail("impedance", f"has a negative real part {z.real!r}: the surface would create energy")
+    return z
+
+
+def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path | None = None) -> Scene:
+    """Validate a parsed TOML document into a ``Scene``.
+
+    Raises
+    ------
+    CaseError
+        For any missing, malformed or unknown key.
+    """
+    top = _Reader(source, doc, "")
+    title = top.text("title", "untitled")
+    for name in ("wave", "far_field", "solver", "output", "geometry", "near_field"):
+        if top.has(name) and not isinstance(doc[name], Mapping):
+            raise top.fail(name, "must be a table")
+    wave = _Reader(source, top.get("wave") or {}, "wave")
+    if not top.has("wave"):
+        raise top.fail("wave", "is required: [wave] with field and frequency_hz")
+    field_kind = wave.text("field", choices=FIELDS)
+    freqs = wave.values("frequency_hz", positive=True)
+    if field_kind == "acoustic":
+        speed = wave.number("sound_speed_m_s", SOUND_SPEED_AIR_M_S, positive=True)
+        density = wave.number("density_kg_m3", DENSITY_AIR_KG_M3, positive=True)
+    else:
+        speed, density = SPEED_OF_LIGHT_M_S, 0.0
+    wave.finish()
+
+    geometry = top.get("geometry")
+    drawing = None
+    audit = None
+    if geometry is not None:
+        drawing, audit = _load_geometry(_Reader(source, geometry, "geometry"), base_dir)
+
+    raw_bodies = top.get("body")
+    if not isinstance(raw_bodies, list) or not raw_bodies:
+        raise top.fail("body", "is required: at least one [[body]] table")
+    bodies: list[BodySpec] = []
+    allowed = BOUNDARIES[field_kind]
+    for i, raw in enumerate(raw_bodies):
+        br = _Reader(source, raw, f"body.{i}")
+        name = br.text("name", f"body{i + 1}")
+        picks = [k for k in ("shape", "layer", "point_m") if br.has(k)]
+        if len(picks) != 1:
+            raise br.fail("shape", "give exactly one of shape = {...}, layer = \"NAME\" or point_m = [x, y]")
+        boundary = br.text("boundary", choices=allowed)
+        imp = _impedance(br) if boundary == "impedance" else None
+        if boundary != "impedance" and br.has("impedance"):
+            raise br.fail("impedance", "is only allowed with boundary = \"impedance\"")
+        if imp is not None and imp == 0 and field_kind != "te":
+            raise br.fail("impedance", "is zero: use boundary = \"pec\" (or \"soft\" for sound)")
+        if picks[0] == "shape":
+            shape = br.get("shape")
+            if not isinstance(shape, Mapping):
+                raise br.fail("shape", "must be a table such as { kind = \"circle\", radius_m = 0.05 }")
+            found = [_inline_shape(_Reader(source, shape, f"body.{i}.shape"))]
+            where = "inline shape"
+        else:
+            if drawing is None:
+                raise br.fail(picks[0], "needs a [geometry] file to pick bodies from")
+            found, where = _pick_from_drawing(br, picks[0], drawing)
+        br.finish()
+        for n, body in enumerate(found):
+            label = name if len(found) == 1 else f"{name}.{n + 1}"
+            bodies.append(BodySpec(label, Body(body.outer, body.holes, label), boundary, imp, where))
+    _check_disjoint(source, bodies)
+
+    raw_inc = top.get("incident")
+    if raw_inc is None:
+        raw_inc = [{"kind": "plane", "from_deg": 0.0}]
+    if not isinstance(raw_inc, list):
+        raise top.fail("incident", "must be an array of tables [[incident]]")
+    incidents: list[IncidentSpec] = []
+    for i, raw in enumerate(raw_inc):
+        ir = _Reader(source, raw, f"incident.{i}")
+        kind = ir.text("kind", "plane", choices=("plane", "line"))
+        name = ir.text("name", f"incident{i + 1}")
+        if kind == "plane":
+            incidents.append(IncidentSpec("plane", ir.values("from_deg"), None, name))
+        else:
+            incidents.append(IncidentSpec("line", (), ir.point("position_m"), name))
+        ir.finish()
+
+    ffr = _Reader(source, top.get("far_field") or {}, "far_field")
+    if ffr.has("angles_deg"):
+        angles = np.array(ffr.values("angles_deg"))
+    else:
+        ffr.used.add("angles_deg")
+        angles = np.linspace(0.0, 360.0, 721)
+    ffr.finish()
+
+    sr = _Reader(source, top.get("solver") or {}, "solver")
+    tol = sr.number("tolerance", 1e-8, positive=True)
+    if not 1e-14 <= tol <= 1e-2:
+        raise sr.fail("tolerance", f"must be between 1e-14 and 1e-2, got {tol!r}")
+    p = sr.get("nodes_per_panel", 16)
+    if isinstance(p, bool) or not isinstance(p, int) or not 4 <= p <= 32:
+        raise sr.fail("nodes_per_panel", f"must be an integer from 4 to 32, got {p!r}")
+    mpw = sr.number("max_panel_wavelengths", positive=True) if sr.has("max_panel_wavelengths") else None
+    sr.used.add("max_panel_wavelengths")
+    refinements = sr.get("max_refinements", 4)
+    if isinstance(refinements, bool) or not isinstance(refinements, int) or not 0 <= refinements <= 20:
+        raise sr.fail("max_refinements", f"must be an integer from 0 to 20, got {refinements!r}")
+    sr.finish()
+
+    orr = _Reader(source, top.get("output") or {}, "output")
+    convention = orr.text("time_convention", "engineering", choices=("engineering", "physics"))
+    plots = orr.get("plots", True)
+    vtk = orr.get("vtk", True)
+    for key, val in (("plots", plots), ("vtk", vtk)):
+        if not isinstance(val, bool):
+            raise orr.fail(key, f"must be true or false, got {val!r}")
+    orr.finish()
+
+    near = None
+    if top.has("near_field"):
+        near = _near_field(_Reader(source, top.get("near_field"), "near_field"), base_dir)
+    top.used.update({"body", "incident"})
+    top.finish()
+    return Scene(
+        title=title,
+        field=field_kind,
+        frequencies_hz=freqs,
+        wave_speed_m_s=speed,
+        density_kg_m3=density,
+        bodies=bodies,
+        incidents=incidents,
+        far_field_deg=angles,
+        tolerance=tol,
+        nodes_per_panel=int(p),
+        max_panel_wavelengths=mpw,
+        max_refinements=int(refinements),
+        time_convention=convention,
+        plots=bool(plots),
+        vtk=bool(vtk),
+        near_field=near,
+        source=source,
+        drawing_audit=audit,
+    )
+
+
+def _near_field(r: _Reader, base_dir: Path | None) -> NearFieldSpec:
+    x = y = probes = None
+    if r.has("x_m") or r.has("y_m"):
+        xr, yr = r.point("x_m"), r.point("y_m")
+        if xr[1] <= xr[0] or yr[1] <= yr[0]:
+            raise r.fail("x_m", "ranges must be [min, max] with min < max")
+        if r.has("spacing_m") == r.has("count"):
+            raise r.fail("spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]")
+        if r.has("spacing_m"):
+            h = r.number("spacing_m", positive=True)
+            nx = int(math.floor((xr[1] - xr[0]) / h + 1e-9)) + 1
+            ny = int(math.floor((yr[1] - yr[0]) / h + 1e-9)) + 1
+        else:
+            cnt = r.get("count")
+            if not (isinstance(cnt, list) and len(cnt) == 2 and all(isinstance(c, int) and c >= 1 for c in cnt)):
+                raise r.fail("count", f"must be [nx, ny] positive integers, got {cnt!r}")
+            nx, ny = cnt
+        if nx * ny > 25_000_000:
+            raise r.fail("spacing_m", f"asks for {nx} x {ny} points; at most 25 million")
+        x = np.linspace(xr[0], xr[1], nx)
+        y = np.linspace(yr[0], yr[1], ny)
+    if r.has("probes_csv"):
+        path = Path(r.text("probes_csv"))
+        if not path.is_absolute() and base_dir is not None:
+            path = base_dir / path
+        probes = _read_probes(r, path)
+    if x is None and probes is None:
+        raise r.fail("x_m", "give a grid (x_m, y_m, spacing_m or count) or probes_csv")
+    r.finish()
+    return NearFieldSpec(x, y, probes)
+
+
+def _read_probes(r: _Reader, path: Path) -> np.ndarray:
+    import csv
+
+    try:
+        with open(path, newline="", encoding="utf-8") as fh:
+            rows = list(csv.reader(line for line in fh if not line.startswith("#")))
+    except OSError as exc:
+        raise r.fail("probes_csv", f"cannot be read: {path}: {exc.strerror}") from None
+    if not rows or [c.strip() for c in rows[0][:2]] != ["x_m", "y_m"]:
+        raise r.fail("probes_csv", f"{path}: the first line must be the header x_m,y_m")
+    pts = []
+    for n, row in enumerate(rows[1:], start=2):
+        try:
+            pts.append((float(row[0]), float(row[1])))
+        except (ValueError, IndexError):
+            raise r.fail("probes_csv", f"{path}, line {n}: expected two numbers, got {row!r}") from None
+    if not pts:
+        raise r.fail("probes_csv", f"{path} holds no points")
+    return np.array(pts)
+
+
+def _check_disjoint(source: str, bodies: list[BodySpec]) -> None:
+    from shapely.geometry import Polygon
+
+    polys = [Polygon(b.body.outer.sample(64)) for b in bodies]
+    for i in range(len(polys)):
+        for j in range(i + 1, len(polys)):
+            if polys[i].intersects(polys[j]):
+                c = polys[i].intersection(polys[j]).representative_point()
+                raise CaseError(
+                    f"{source}: bodies {bodies[i].name!r} and {bodies[j].name!r} overlap or touch "
+                    f"near ({c.x:.6g}, {c.y:.6g}) m; move them apart or merge them into one body"
+                )
+
+
+def _load_geometry(r: _Reader, base_dir: Path | None) -> tuple[Any, dict[str, Any]]:
+    from sectionwave.importers import load_bodies  # type: ignore[attr-defined]
+
+    path = Path(r.text("file"))
+    if not path.is_absolute() and base_dir is not None:
+        path = base_dir / path
+    units = r.text("units", None) if r.has("units") else None
+    gap = r.number("gap_tol_m", positive=True) if r.has("gap_tol_m") else None
+    r.finish()
+    return load_bodies(path, units=units, gap_tol_m=gap)
+
+
+def _pick_from_drawing(br: _Reader, how: str, drawing: Any) -> tuple[list[Body], str]:
+    named: list[tuple[str, Body]] = drawing
+    if how == "layer":
+        layer = br.text("layer")
+        found = [b for lay, b in named if lay == layer]
+        if not found:
+            raise br.fail("layer", f"{layer!r} holds no closed body; layers with bodies: {sorted({lay for lay, _ in named})}")
+        return found, f"layer {layer}"
+    x, y = br.point("point_m")
+    found = [b for _, b in named if bool(b.contains([[x, y]])[0])]
+    if not found:
+        raise br.fail("point_m", f"({x}, {y}) m is not inside any body of the drawing")
+    return found[:1], f"body at ({x}, {y}) m"
+
+
+def load_case(path: str | Path) -> Scene:
+    """Read and validate a case file (``-`` reads standard input).
+
+    Raises
+    ------
+    CaseError
+        If the file cannot be read, is not valid TOML, or fails validation.
+    """
+    import sys
+
+    if str(path) == "-":
+        data = sys.stdin.buffer.read()
+        source, base = "<stdin>", Path.cwd()
+    else:
+        p = Path(path)
+        source, base = str(p), p.resolve().parent
+        try:
+            data = p.read_bytes()
+        except OSError as exc:
+            raise CaseError(f"{p}: cannot read the case file ({exc.strerror})") from None
+    try:
+        doc = tomllib.loads(data.decode("utf-8"))
+    except UnicodeDecodeError as exc:
+        raise CaseError(f"{source}: not UTF-8 text (byte {exc.start})") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise CaseError(f"{source}: invalid TOML: {exc}") from None
+    return parse_case(doc, source=source, base_dir=base)

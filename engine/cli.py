@@ -1,0 +1,121 @@
+"""Command line: ``sectionwave run CASE.toml`` and ``sectionwave inspect DRAWING``.
+
+Exit codes: 0 success, 2 bad input (one line naming file, key and allowed
+values), 1 internal failure. Progress goes to stderr only when it is a
+terminal; ``--quiet`` silences everything but errors.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import logging
+import sys
+import warnings
+from collections.abc import Sequence
+from pathlib import Path
+
+__all__ = ["main"]
+
+EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
+
+
+def _parser() -> argparse.ArgumentParser:
+    from . import __version__
+
+    parser = argparse.ArgumentParser(
+        prog="sectionwave",
+        description="2D wave scattering from CAD cross-sections (echo width, far field, surface fields).",
+    )
+    parser.add_argument("--version", action="version", version=f"sectionwave {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True)
+    run = sub.add_parser("run", help="solve a case file and write its results")
+    run.add_argument("case", help="case file (TOML), or - to read it from standard input")
+    run.add_argument("--out", type=Path, help="results folder (default: CASE-results beside the case)")
+    run.add_argument("--force", action="store_true", help="replace an existing results folder")
+    run.add_argument("--quiet", action="store_true", help="print nothing but errors")
+    run.add_argument(
+        "--time-convention", choices=("engineering", "physics"), default=None,
+        help="engineering: exp(+j w t) (default); physics: exp(-i w t), complex conjugates",
+    )
+    ins = sub.add_parser("inspect", help="show what a drawing holds and how it cleans into bodies")
+    ins.add_argument("drawing")
+    ins.add_argument("--units", help="drawing units when the file has none (mm, cm, m, in, ft)")
+    ins.add_argument("--layer", action="append", help="only this layer (repeatable, glob allowed)")
+    ins.add_argument("--json", action="store_true", help="machine-readable report on stdout")
+    ins.add_argument("--preview", type=Path, help="write a PNG of the cleaned bodies")
+    return parser
+
+
+def _say(quiet: bool, message: str) -> None:
+    if not quiet:
+        print(message, file=sys.stderr)
+
+
+def _run(args: argparse.Namespace) -> int:
+    from . import load_case, solve_scene, write_run
+
+    scene = load_case(args.case)
+    if args.out is not None:
+        out = args.out
+    elif args.case == "-":
+        out = Path("sectionwave-results")
+    else:
+        out = Path(args.case).with_name(Path(args.case).stem + "-results")
+    from .export.atomic import prepare_output_dir  # noqa: F401  (fail before solving)
+    if out.exists() and any(out.iterdir()) and not args.force:
+        raise _BadInput(f"{out}: results folder exists and is not empty; pass --force to replace it or choose --out")
+    show = not args.quiet and sys.stderr.isatty()
+    progress = (lambda msg: print(msg, file=sys.stderr)) if show else None
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = solve_scene(scene, progress=progress)
+    write_run(result, out, force=args.force, convention=args.time_convention)
+    for w in caught:
+        _say(args.quiet, f"warning: {w.message}")
+    worst = max(fr.estimated_error for fr in result.frequencies)
+    _say(args.quiet, f"wrote {out} ({len(result.frequencies)} frequencies, estimated error {worst:.1e})")
+    return EXIT_OK
+
+
+def _inspect(args: argparse.Namespace) -> int:
+    from sectionwave.importers import inspect as insp
+
+    report = insp.inspect_drawing(Path(args.drawing), units=args.units, layers=args.layer)
+    if args.preview is not None:
+        insp.write_preview_png(Path(args.drawing), args.preview, units=args.units, layers=args.layer)
+    if args.json:
+        print(json.dumps(report, indent=2, default=str))
+    else:
+        print(insp.format_inspection(report))
+    return EXIT_BAD_INPUT if report.get("audit", {}).get("errors") else EXIT_OK
+
+
+class _BadInput(Exception):
+    pass
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``sectionwave`` command; returns the exit code."""
+    from sectionwave.importers.errors import SectionwaveError
+
+    args = _parser().parse_args(argv)
+    level = logging.ERROR if getattr(args, "quiet", False) else logging.WARNING
+    logging.basicConfig(level=level, format="%(levelname)s: %(message)s", stream=sys.stderr)
+    try:
+        if args.command == "run":
+            return _run(args)
+        return _inspect(args)
+    except (_BadInput, SectionwaveError) as exc:
+        print(f"sectionwave: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT if not isinstance(exc, MemoryError) else EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("sectionwave: interrupted; nothing was written", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - the one place that maps failures to an exit code
+        print(f"sectionwave: internal error: {type(exc).__name__}: {exc}", file=sys.stderr)
+        return EXIT_FAILURE
+
+
+if __name__ == "__main__":
+    sys.exit(main())

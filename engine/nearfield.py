@@ -1,0 +1,658 @@
+"""Scattered and total fields off the boundary, right up to the surface.
+
+Glossary
+--------
+Green's representation
+    For ``x`` outside every body (normals out of the body),
+    ``u_scat(x) = int [u(y) dG/dn_y(x, y) - G(x, y) psi(y)] ds_y`` with
+    ``G = -(j/4) H0^(2)(k r)`` and
+    ``dG/dn_y = -(j k / 4) H1^(2)(k r) (r_hat . n_y)``, ``r_hat = (x - y) / r``.
+far part
+    Plain Gauss-Legendre sums over every node. For real ``k`` they run in a
+    compiled loop over targets that never forms a target-by-node matrix:
+    for ``k r >= HANKEL_SPLIT`` the Hankel functions are written as
+    ``sqrt(2 / (pi x)) exp(-j (x - nu pi/2 - pi/4)) M_nu(x)`` with the
+    slowly varying amplitude ``M_nu`` a Chebyshev series in ``HANKEL_SPLIT / x``
+    (fitted once to scipy's Bessel functions and the large-argument
+    expansion, DLMF 10.17.4) and the phase from an inlined sine/cosine; closer
+    pairs call scipy's Bessel functions.
+near part
+    Targets within ``NEAR_RADIUS`` half-lengths of a panel get the
+    kernel-split product weights of ``quadrature.near_weights`` (exact for
+    polynomial densities times ``log r`` and the Laplace kernel) instead of
+    the plain weights of that panel.
+upsampling
+    Optionally, targets much closer to a panel than its length use the
+    panel's polynomial densities on ``upsample`` child panels whose nodes
+    lie on the exact curve; the product rule then sees the smooth factors
+    of the kernel (``J0(k r)``, ``J1(k r)``, the panel's speed) resolved on
+    a finer scale.
+inside
+    A point is inside when the winding number of all contours about it is
+    1 (holes run clockwise and cancel their outer contour). Far from the
+    boundary the polygon through the panel nodes decides; near a panel the
+    change of ``arg(tau - z)`` along the panel's interpolant does.
+"""
+
+from __future__ import annotations
+
+import ctypes
+import math
+from collections.abc import Callable
+from functools import lru_cache
+from typing import Any
+
+import numpy as np
+import scipy.special as sp
+from numpy.polynomial import chebyshev
+from numpy.typing import ArrayLike, NDArray
+
+from .kernels import kernel_matrices
+from .mesh import PanelMesh
+from .operators import near_corrections, near_pairs
+from .quadrature import _arg_change, gauss_legendre, interpolation_matrix, near_weights
+
+__all__ = [
+    "HANKEL_SPLIT",
+    "UPSAMPLE_RATIO",
+    "field_at_points",
+    "field_on_grid",
+    "inside_mask",
+    "scattered_field",
+]
+
+FloatArray = NDArray[np.float64]
+ComplexArray = NDArray[np.complex128]
+IncidentFn = Callable[[FloatArray], ComplexArray]
+
+#: ``k r`` above which the far loop uses the fitted Hankel amplitude.
+HANKEL_SPLIT = 6.0
+#: Degree of the Chebyshev fit of the amplitudes (error about 3e-14).
+_AMPLITUDE_DEGREE = 14
+#: A target closer to a panel than this fraction of the panel's length is
+#: evaluated on upsampled children when ``upsample > 1``.
+UPSAMPLE_RATIO = 0.25
+#: Targets per chunk of the fallback (complex ``k``) far sum.
+_CHUNK = 2048
+
+
+def _amplitude(nu: int, x: FloatArray) -> ComplexArray:
+    """``M_nu(x) = H_nu^(2)(x) / (sqrt(2 / (pi x)) exp(-j (x - nu pi / 2 - pi / 4)))``.
+
+    Large arguments use the expansion ``sum_k (-j)^k a_k(nu) / x^k`` with
+    ``a_k = prod_{m <= k} (4 nu^2 - (2m - 1)^2) / (k! 8^k)`` (DLMF 10.17.4),
+    where 30 terms are far below rounding; smaller ones divide scipy's
+    Hankel function by the phase.
+    """
+    x = np.asarray(x, dtype=float)
+    out = np.empty(x.shape, dtype=complex)
+    big = x > 300.0
+    xs = x[~big]
+    out[~big] = sp.hankel2(nu, xs) / (
+        np.sqrt(2.0 / (np.pi * xs)) * np.exp(-1j * (xs - nu * np.pi / 2 - np.pi / 4))
+    )
+    xb = x[big]
+    term = np.ones(xb.shape, dtype=complex)
+    total = term.copy()
+    mu = 4.0 * nu * nu
+    for kk in range(1, 30):
+        term = term * (mu - (2 * kk - 1) ** 2) / (kk * 8.0 * xb) * (-1j)
+        total += term
+    out[big] = total
+    return out
+
+
+@lru_cache(maxsize=1)
+def _amplitude_coefficients() -> FloatArray:
+    """Chebyshev coefficients in ``s = 2 HANKEL_SPLIT / x - 1``: rows Re M0, Im M0, Re M1, Im M1."""
+    n = _AMPLITUDE_DEGREE + 1
+    s = np.cos(np.pi * (np.arange(n) + 0.5) / n)
+    x = HANKEL_SPLIT / (0.5 * (s + 1.0))
+    rows = []
+    for nu in (0, 1):
+        m = _amplitude(nu, x)
+        rows.append(chebyshev.chebfit(s, m.real, _AMPLITUDE_DEGREE))
+        rows.append(chebyshev.chebfit(s, m.imag, _AMPLITUDE_DEGREE))
+    coef = np.ascontiguousarray(np.array(rows))
+    coef.setflags(write=False)
+    return coef
+
+
+@lru_cache(maxsize=1)
+def _compiled() -> Any:
+    """Compile the far-field loop once per process (scipy's Bessel pointers change per process)."""
+    import numba
+    import scipy.special.cython_special as cs
+
+    get_ptr = ctypes.pythonapi.PyCapsule_GetPointer
+    get_ptr.restype = ctypes.c_void_p
+    get_ptr.argtypes = [ctypes.py_object, ctypes.c_char_p]
+    get_name = ctypes.pythonapi.PyCapsule_GetName
+    get_name.restype = ctypes.c_char_p
+    get_name.argtypes = [ctypes.py_object]
+    proto = ctypes.CFUNCTYPE(ctypes.c_double, ctypes.c_double, ctypes.c_int)
+
+    def fn(name: str) -> Any:
+        cap = cs.__pyx_capi__[name]
+        return proto(get_ptr(cap, get_name(cap)))
+
+    c_j0, c_y0, c_j1, c_y1 = fn("j0"), fn("y0"), fn("j1"), fn("y1")
+    split = HANKEL_SPLIT
+    # Cody-Waite pieces of pi/2 (the first two have trailing zero bits).
+    pio2_1 = 1.57079632673412561417e00
+    pio2_2 = 6.07710050630396597660e-11
+    pio2_3 = 2.02226624879595063154e-21
+    two_over_pi = 2.0 / math.pi
+    flags = {"contract", "arcp", "reassoc", "nsz"}
+
+    @numba.njit(inline="always", fastmath=flags)
+    def clenshaw(c, row, s):
+        b1 = 0.0
+        b2 = 0.0
+        two_s = 2.0 * s
+        for m in range(c.shape[1] - 1, 0, -1):
+            b0 = c[row, m] + two_s * b1 - b2
+            b2 = b1
+            b1 = b0
+        return c[row, 0] + s * b1 - b2
+
+    @numba.njit(parallel=True, fastmath=flags)
+    def far_sum(tx, ty, sx, sy, snx, sny, a_re, a_im, b_re, b_im, k, coef, chunk):
+        # Returns S1 = sum E1 a and S0 = sum E0 b for pairs with k r >= split
+        # (E_nu = exp(-j x) M_nu / sqrt(x), E1 also times r_hat . n_y) and
+        # the direct kernel sum for the closer pairs.
+        m = tx.size
+        n = sx.size
+        nrhs = a_re.shape[0]
+        s0 = np.zeros((m, nrhs), dtype=np.complex128)
+        s1 = np.zeros((m, nrhs), dtype=np.complex128)
+        direct = np.zeros((m, nrhs), dtype=np.complex128)
+        n_chunks = (m + chunk - 1) // chunk
+        for c in numba.prange(n_chunks):
+            e0r = np.empty(n)
+            e0i = np.empty(n)
+            e1r = np.empty(n)
+            e1i = np.empty(n)
+            for i in range(c * chunk, min(m, (c + 1) * chunk)):
+                xi = tx[i]
+                yi = ty[i]
+                n_close = 0
+                for j in range(n):
+                    dx = xi - sx[j]
+                    dy = yi - sy[j]
+                    r = math.sqrt(dx * dx + dy * dy)
+                    x = k * r
+                    keep = 1.0 if x >= split else 0.0
+                    n_close += 1 if x < split else 0
+                    xc = max(x, split)
+                    rc = xc / k
+                    inv_sqrt = keep / math.sqrt(xc)
+                    s = 2.0 * split / xc - 1.0
+                    m0r = clenshaw(coef, 0, s)
+                    m0i = clenshaw(coef, 1, s)
+                    m1r = clenshaw(coef, 2, s)
+                    m1i = clenshaw(coef, 3, s)
+                    # exp(-j xc) by reduction to [-pi/4, pi/4].
+                    q = math.floor(xc * two_over_pi + 0.5)
+                    y = ((xc - q * pio2_1) - q * pio2_2) - q * pio2_3
+                    y2 = y * y
+                    sn = y * (1.0 + y2 * (-1.0 / 6 + y2 * (1.0 / 120 + y2 * (-1.0 / 5040 + y2 * (
+                        1.0 / 362880 + y2 * (-1.0 / 39916800 + y2 * (1.0 / 6227020800 + y2 * (
+                            -1.0 / 1307674368000))))))))
+                    cs_ = 1.0 + y2 * (-0.5 + y2 * (1.0 / 24 + y2 * (-1.0 / 720 + y2 * (
+                        1.0 / 40320 + y2 * (-1.0 / 3628800 + y2 * (1.0 / 479001600 + y2 * (
+                            -1.0 / 87178291200 + y2 * (1.0 / 20922789888000))))))))
+                    qi = np.int64(q)
+                    odd = qi & 1
+                    sg_c = 1.0 - 2.0 * (((qi + 1) >> 1) & 1)
+                    sg_s = 1.0 - 2.0 * ((qi >> 1) & 1)
+                    cos_x = sg_c * (sn if odd else cs_)
+                    sin_x = sg_s * (cs_ if odd else sn)
+                    # exp(-j x) = cos - j sin
+                    pr = cos_x * inv_sqrt
+                    pi_ = -sin_x * inv_sqrt
+                    e0r[j] = pr * m0r - pi_ * m0i
+                    e0i[j] = pr * m0i + pi_ * m0r
+                    proj = (dx * snx[j] + dy * sny[j]) / rc
+                    e1r[j] = (pr * m1r - pi_ * m1i) * proj
+                    e1i[j] = (pr * m1i + pi_ * m1r) * proj
+                for rr in range(nrhs):
+                    acc0r = 0.0
+                    acc0i = 0.0
+                    acc1r = 0.0
+                    acc1i = 0.0
+                    for j in range(n):
+                        acc0r += e0r[j] * b_re[rr, j] - e0i[j] * b_im[rr, j]
+                        acc0i += e0r[j] * b_im[rr, j] + e0i[j] * b_re[rr, j]
+                        acc1r += e1r[j] * a_re[rr, j] - e1i[j] * a_im[rr, j]
+                        acc1i += e1r[j] * a_im[rr, j] + e1i[j] * a_re[rr, j]
+                    s0[i, rr] = complex(acc0r, acc0i)
+                    s1[i, rr] = complex(acc1r, acc1i)
+                if n_close == 0:
+                    continue
+                for j in range(n):
+                    dx = xi - sx[j]
+                    dy = yi - sy[j]
+                    r = math.sqrt(dx * dx + dy * dy)
+                    x = k * r
+                    if x >= split or r == 0.0:
+                        continue
+                    g = complex(-0.25 * c_y0(x, 0), -0.25 * c_j0(x, 0))
+                    proj = (dx * snx[j] + dy * sny[j]) / r
+                    dg = complex(-0.25 * k * c_y1(x, 0), -0.25 * k * c_j1(x, 0)) * proj
+                    for rr in range(nrhs):
+                        a = complex(a_re[rr, j], a_im[rr, j])
+                        b = complex(b_re[rr, j], b_im[rr, j])
+                        direct[i, rr] += a * dg - b * g
+        return s0, s1, direct
+
+    @numba.njit(parallel=False)
+    def panel_kernels(tx, ty, sx, sy, snx, sny, k):
+        # Plain S and D kernel values (zero where the points coincide), serial:
+        # the blocks are small and a parallel region costs more than it saves.
+        m = tx.size
+        n = sx.size
+        s_mat = np.zeros((m, n), dtype=np.complex128)
+        d_mat = np.zeros((m, n), dtype=np.complex128)
+        for i in range(m):
+            for j in range(n):
+                dx = tx[i] - sx[j]
+                dy = ty[i] - sy[j]
+                r = math.sqrt(dx * dx + dy * dy)
+                if r == 0.0:
+                    continue
+                x = k * r
+                s_mat[i, j] = complex(-0.25 * c_y0(x, 0), -0.25 * c_j0(x, 0))
+                proj = (dx * snx[j] + dy * sny[j]) / r
+                d_mat[i, j] = complex(-0.25 * k * c_y1(x, 0), -0.25 * k * c_j1(x, 0)) * proj
+        return s_mat, d_mat
+
+    return far_sum, panel_kernels
+
+
+def _far_part(
+    mesh: PanelMesh, k: complex, u: ComplexArray, psi: ComplexArray, points: FloatArray
+) -> ComplexArray:
+    """Plain Gauss-Legendre representation at every target, ``(n_points, n_rhs)``."""
+    w = mesh.weights[:, None]
+    a = u * w
+    b = psi * w
+    m = points.shape[0]
+    if np.isreal(k) and float(np.real(k)) > 0:
+        kr = float(np.real(k))
+        far_sum = _compiled()[0]
+        tx, ty = (np.ascontiguousarray(points[:, i], dtype=float) for i in (0, 1))
+        sx, sy = (np.ascontiguousarray(mesh.nodes[:, i]) for i in (0, 1))
+        snx, sny = (np.ascontiguousarray(mesh.normals[:, i]) for i in (0, 1))
+        parts = [np.ascontiguousarray(v.T) for v in (a.real, a.imag, b.real, b.imag)]
+        chunk = int(max(1, min(256, m // 64 + 1)))
+        s0, s1, direct = far_sum(tx, ty, sx, sy, snx, sny, *parts, kr, _amplitude_coefficients(),
+                                 chunk)
+        root = math.sqrt(2.0 / math.pi)
+        c0 = 0.25j * root * np.exp(0.25j * np.pi)
+        c1 = -0.25j * kr * root * np.exp(0.75j * np.pi)
+        return c0 * s0 + c1 * s1 + direct
+    out = np.empty((m, u.shape[1]), dtype=complex)
+    for lo in range(0, m, _CHUNK):
+        hi = min(m, lo + _CHUNK)
+        s_mat, d_mat, _, _ = kernel_matrices(
+            points[lo:hi], np.zeros((hi - lo, 2)), mesh.nodes, mesh.normals, k,
+            want_s=True, want_d=True, want_dp=False, want_dt=False,
+        )
+        out[lo:hi] = d_mat @ a - s_mat @ b
+    return out
+
+
+def _complex(v: FloatArray) -> ComplexArray:
+    return v[..., 0] + 1j * v[..., 1]
+
+
+def _panel_product(
+    k: complex,
+    z: ComplexArray,
+    tau: ComplexArray,
+    tau_t: ComplexArray,
+    n_src: ComplexArray,
+    omega: FloatArray,
+    end_a: complex,
+    end_b: complex,
+    u: ComplexArray,
+    psi: ComplexArray,
+) -> ComplexArray:
+    """Product-rule minus plain-rule contribution of one panel at targets ``z``."""
+    log_w, cauchy = near_weights(tau, tau_t, end_a, end_b, z)
+    corr_s, corr_d, _, _ = near_corrections(
+        k, z, np.zeros(z.size, dtype=complex), tau, n_src, tau_t, omega, log_w, cauchy,
+        want=(True, True, False, False),
+    )
+    assert corr_s is not None and corr_d is not None
+    return corr_d @ u - corr_s @ psi
+
+
+def _plain_panel(
+    k: complex, z: ComplexArray, tau: ComplexArray, n_src: ComplexArray, omega: FloatArray,
+    u: ComplexArray, psi: ComplexArray,
+) -> ComplexArray:
+    """Plain Gauss-Legendre contribution of one panel at targets ``z``."""
+    if np.isreal(k) and float(np.real(k)) > 0:
+        s_mat, d_mat = _compiled()[1](
+            np.ascontiguousarray(z.real), np.ascontiguousarray(z.imag),
+            np.ascontiguousarray(tau.real), np.ascontiguousarray(tau.imag),
+            np.ascontiguousarray(n_src.real), np.ascontiguousarray(n_src.imag),
+            float(np.real(k)),
+        )
+    else:
+        pts = np.column_stack([z.real, z.imag])
+        s_mat, d_mat, _, _ = kernel_matrices(
+            pts, np.zeros_like(pts), np.column_stack([tau.real, tau.imag]),
+            np.column_stack([n_src.real, n_src.imag]), k,
+            want_s=True, want_d=True, want_dp=False, want_dt=False,
+        )
+    return (d_mat * omega[None, :]) @ u - (s_mat * omega[None, :]) @ psi
+
+
+def _children(mesh: PanelMesh, panel: int, n_child: int) -> list[dict[str, Any]]:
+    """Geometry of ``n_child`` equal-parameter pieces of a panel on its exact curve.
+
+    Each piece carries its nodes, derivative with respect to its own
+    parameter, normals, weights, ends and the interpolation matrix from the
+    parent's nodes.
+    """
+    p = mesh.p
+    x, wgl = gauss_legendre(p)
+    seg = mesh.segments[mesh.seg_of_panel[panel]]
+    t0, t1 = float(mesh.t0[panel]), float(mesh.t1[panel])
+    out = []
+    for c in range(n_child):
+        lo = -1.0 + 2.0 * c / n_child
+        hi = -1.0 + 2.0 * (c + 1) / n_child
+        xp = lo + (hi - lo) * 0.5 * (x + 1.0)  # parent parameter of the child's nodes
+        t = t0 + (t1 - t0) * 0.5 * (xp + 1.0)
+        half = 0.5 * (t1 - t0) * (hi - lo) * 0.5
+        pts = seg.points(t)
+        d1 = seg.derivative(t) * half
+        speed = np.hypot(d1[:, 0], d1[:, 1])
+        unit = d1 / speed[:, None]
+        normals = np.column_stack([unit[:, 1], -unit[:, 0]])
+        ends = seg.points(np.array([t0 + (t1 - t0) * 0.5 * (lo + 1.0),
+                                    t0 + (t1 - t0) * 0.5 * (hi + 1.0)]))
+        out.append({
+            "tau": _complex(pts),
+            "tau_t": _complex(d1),
+            "n": _complex(normals),
+            "omega": wgl * speed,
+            "ends": (complex(*ends[0]), complex(*ends[1])),
+            "interp": interpolation_matrix(x, xp),
+            "center": complex(*(0.5 * (ends[0] + ends[1]))),
+            "reach": 1.8 * max(0.5 * float(np.hypot(*(ends[1] - ends[0]))),
+                               0.5 * float(np.sum(wgl * speed))),
+        })
+    return out
+
+
+def _near_part(
+    mesh: PanelMesh,
+    k: complex,
+    u: ComplexArray,
+    psi: ComplexArray,
+    points: FloatArray,
+    upsample: int,
+) -> ComplexArray:
+    """Corrections (product minus plain) for targets near a panel, ``(n_points, n_rhs)``."""
+    out = np.zeros((points.shape[0], u.shape[1]), dtype=complex)
+    if points.shape[0] == 0:
+        return out
+    p = mesh.p
+    z_all = _complex(points)
+    tau_all = mesh.complex_nodes()
+    tan_all = _complex(mesh.tangent_t)
+    nrm_all = _complex(mesh.normals)
+    for panel, tgt in near_pairs(mesh, points, exclude_own=False):
+        sl = slice(panel * p, (panel + 1) * p)
+        tau, tau_t, n_src, omega = tau_all[sl], tan_all[sl], nrm_all[sl], mesh.weights[sl]
+        ends = mesh.ends[panel]
+        end_a, end_b = complex(*ends[0]), complex(*ends[1])
+        z = z_all[tgt]
+        close = np.zeros(tgt.size, dtype=bool)
+        if upsample > 1:
+            dist = np.min(np.abs(z[:, None] - tau[None, :]), axis=1)
+            close = dist < UPSAMPLE_RATIO * mesh.lengths[panel]
+        far = ~close
+        if np.any(far):
+            out[tgt[far]] += _panel_product(
+                k, z[far], tau, tau_t, n_src, omega, end_a, end_b, u[sl], psi[sl]
+            )
+        if np.any(close):
+            zc = z[close]
+            acc = -_plain_panel(k, zc, tau, n_src, omega, u[sl], psi[sl])
+            for child in _children(mesh, panel, upsample):
+                uc = child["interp"] @ u[sl]
+                pc = child["interp"] @ psi[sl]
+                acc += _plain_panel(k, zc, child["tau"], child["n"], child["omega"], uc, pc)
+                near = np.abs(zc - child["center"]) < child["reach"]
+                if np.any(near):
+                    acc[near] += _panel_product(
+                        k, zc[near], child["tau"], child["tau_t"], child["n"], child["omega"],
+                        *child["ends"], uc, pc,
+                    )
+            out[tgt[close]] += acc
+    return out
+
+
+def scattered_field(
+    mesh: PanelMesh,
+    k: complex,
+    u: ComplexArray,
+    psi: ComplexArray,
+    points: ArrayLike,
+    *,
+    upsample: int = 1,
+) -> ComplexArray:
+    """Scattered field at points outside every body from the boundary traces.
+
+    Parameters
+    ----------
+    mesh
+        The panel mesh the traces live on.
+    k
+        Wavenumber of the surrounding medium (complex for a lossy medium).
+    u, psi
+        Total field and its normal derivative (normal out of the body) at
+        the nodes, shape ``(n_nodes, n_rhs)`` or ``(n_nodes,)``.
+    points
+        Targets, shape ``(n_points, 2)``; they must lie outside every body
+        (inside, the representation gives ``-u_inc`` rather than zero).
+    upsample
+        Number of child panels for targets closer to a panel than
+        ``UPSAMPLE_RATIO`` of its length; 1 turns upsampling off.
+
+    Returns
+    -------
+    ndarray, shape (n_points, n_rhs), complex
+        ``u_scat = int (u dG/dn_y - G psi) ds``.
+
+    Notes
+    -----
+    No target-by-node matrix is formed for real ``k``; for complex ``k``
+    the plain sum runs in chunks of ``_CHUNK`` targets.
+    """
+    pts = np.ascontiguousarray(np.asarray(points, dtype=float).reshape(-1, 2))
+    u2 = np.asarray(u, dtype=complex)
+    psi2 = np.asarray(psi, dtype=complex)
+    if u2.ndim == 1:
+        u2, psi2 = u2[:, None], psi2[:, None]
+    if u2.shape != psi2.shape or u2.shape[0] != mesh.n_nodes:
+        raise ValueError(
+            f"u and psi must both have {mesh.n_nodes} rows; got {u2.shape} and {psi2.shape}"
+        )
+    if int(upsample) < 1:
+        raise ValueError(f"upsample must be a positive integer, got {upsample!r}")
+    if pts.shape[0] == 0:
+        return np.zeros((0, u2.shape[1]), dtype=complex)
+    out = _far_part(mesh, k, u2, psi2, pts)
+    out += _near_part(mesh, k, u2, psi2, pts, int(upsample))
+    return out
+
+
+def _contour_polygons(mesh: PanelMesh) -> list[tuple[FloatArray, float]]:
+    """Polygon through every panel's start, nodes (and end) per contour, with its orientation."""
+    out = []
+    p = mesh.p
+    nodes = mesh.nodes.reshape(mesh.n_panels, p, 2)
+    for c in np.unique(mesh.contour_of_panel):
+        idx = np.flatnonzero(mesh.contour_of_panel == c)
+        verts = np.concatenate([np.vstack([mesh.ends[i, :1], nodes[i]]) for i in idx])
+        x, y = verts[:, 0], verts[:, 1]
+        area = 0.5 * float(np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y))
+        out.append((verts, 1.0 if area > 0 else -1.0))
+    return out
+
+
+def inside_mask(mesh: PanelMesh, points: ArrayLike) -> NDArray[np.bool_]:
+    """True for points inside any body (holes count as outside).
+
+    Parameters
+    ----------
+    mesh
+        Panel mesh of all contours (outer contours counter-clockwise, holes
+        clockwise).
+    points
+        Shape ``(n_points, 2)``.
+
+    Returns
+    -------
+    ndarray of bool, shape (n_points,)
+        Winding number of the boundary about each point rounded, at least 1.
+
+    Notes
+    -----
+    Points beyond ``NEAR_RADIUS`` half-lengths of every panel are decided
+    by the polygon through the panel ends and nodes (the curve cannot pass
+    on the other side of such a point); the others sum the change of
+    ``arg(tau - z)`` over every panel, along the panel's interpolant for
+    the panels they are near and along the chord for the rest.
+    """
+    import shapely
+
+    pts = np.asarray(points, dtype=float).reshape(-1, 2)
+    wind = np.zeros(pts.shape[0])
+    for verts, sign in _contour_polygons(mesh):
+        poly = shapely.Polygon(verts)
+        shapely.prepare(poly)
+        wind += sign * shapely.contains_xy(poly, pts[:, 0], pts[:, 1])
+    near_any = np.zeros(pts.shape[0], dtype=bool)
+    pairs = list(near_pairs(mesh, pts, exclude_own=False))
+    for _, tgt in pairs:
+        near_any[tgt] = True
+    idx = np.flatnonzero(near_any)
+    if idx.size:
+        z = _complex(pts[idx])
+        za = _complex(mesh.ends[:, 0])
+        zb = _complex(mesh.ends[:, 1])
+        pos = np.full(pts.shape[0], -1, dtype=np.int64)
+        pos[idx] = np.arange(idx.size)
+        arg = np.zeros((idx.size, mesh.n_panels))
+        for lo in range(0, idx.size, 4096):
+            sl = slice(lo, min(idx.size, lo + 4096))
+            arg[sl] = np.angle((zb[None, :] - z[sl, None]) / (za[None, :] - z[sl, None]))
+        tau_all = mesh.complex_nodes()
+        p = mesh.p
+        for panel, tgt in pairs:
+            rows = pos[tgt]
+            tau = tau_all[panel * p : (panel + 1) * p]
+            center = 0.5 * (za[panel] + zb[panel])
+            half = 0.5 * (zb[panel] - za[panel])
+            arg[rows, panel] = _arg_change((tau - center) / half, (z[rows] - center) / half)
+        wind[idx] = arg.sum(axis=1) / (2 * np.pi)
+    return np.rint(wind) >= 1
+
+
+def _fields(
+    mesh: PanelMesh,
+    k: complex,
+    u: ComplexArray,
+    psi: ComplexArray,
+    incident_fn: IncidentFn,
+    pts: FloatArray,
+    upsample: int,
+) -> dict[str, NDArray[Any]]:
+    inside = inside_mask(mesh, pts)
+    outside = np.flatnonzero(~inside)
+    n_rhs = 1 if np.ndim(u) == 1 else int(np.shape(u)[1])
+    scat = np.full((pts.shape[0], n_rhs), np.nan + 1j * np.nan)
+    inc = scat.copy()
+    if outside.size:
+        scat[outside] = scattered_field(mesh, k, u, psi, pts[outside], upsample=upsample)
+        vals = np.asarray(incident_fn(pts[outside]), dtype=complex)
+        inc[outside] = vals.reshape(outside.size, n_rhs)
+    return {"total": scat + inc, "scattered": scat, "incident": inc, "inside": inside}
+
+
+def field_on_grid(
+    mesh: PanelMesh,
+    k: complex,
+    u: ComplexArray,
+    psi: ComplexArray,
+    incident_fn: IncidentFn,
+    x: ArrayLike,
+    y: ArrayLike,
+    *,
+    upsample: int = 1,
+) -> dict[str, NDArray[Any]]:
+    """Total, scattered and incident fields on the grid ``x`` by ``y``.
+
+    Parameters
+    ----------
+    mesh, k, u, psi
+        As for ``scattered_field``.
+    incident_fn
+        ``incident_fn(points) -> (n_points, n_rhs)`` complex incident field.
+    x, y
+        Grid coordinates, shapes ``(nx,)`` and ``(ny,)``.
+    upsample
+        As for ``scattered_field``.
+
+    Returns
+    -------
+    dict
+        ``'total'``, ``'scattered'``, ``'incident'``: complex ``(ny, nx, n_rhs)``
+        with NaN inside bodies; ``'inside'``: bool ``(ny, nx)``.
+    """
+    xs = np.asarray(x, dtype=float).ravel()
+    ys = np.asarray(y, dtype=float).ravel()
+    gx, gy = np.meshgrid(xs, ys)
+    pts = np.column_stack([gx.ravel(), gy.ravel()])
+    res = _fields(mesh, k, u, psi, incident_fn, pts, upsample)
+    shape = (ys.size, xs.size)
+    return {
+        key: val.reshape(shape + val.shape[1:]) for key, val in res.items()
+    }
+
+
+def field_at_points(
+    mesh: PanelMesh,
+    k: complex,
+    u: ComplexArray,
+    psi: ComplexArray,
+    incident_fn: IncidentFn,
+    points: ArrayLike,
+    *,
+    upsample: int = 1,
+) -> dict[str, NDArray[Any]]:
+    """Total, scattered and incident fields at probe points.
+
+    Parameters
+    ----------
+    mesh, k, u, psi, incident_fn, upsample
+        As for ``field_on_grid``.
+    points
+        Shape ``(n_points, 2)``.
+
+    Returns
+    -------
+    dict
+        ``'total'``, ``'scattered'``, ``'incident'``: complex ``(n_points, n_rhs)``
+        with NaN inside bodies; ``'inside'``: bool ``(n_points,)``.
+    """
+    pts = np.asarray(points, dtype=float).reshape(-1, 2)
+    return _fields(mesh, k, u, psi, incident_fn, pts, upsample)

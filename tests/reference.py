@@ -1,0 +1,84 @@
+"""Reference solutions and canonical shapes shared by the tests.
+
+Series solutions of the circular cylinder follow Balanis, Advanced
+Engineering Electromagnetics (2nd ed., ch. 11, plane-wave scattering by a
+circular cylinder), written here for the exp(+j w t) convention and the
+far-field normalisation u_scat ~ F exp(-j k r) / sqrt(r):
+
+    u_inc  = sum_n j^n J_n(k r) e^{j n (phi - phi_i)}          (Jacobi-Anger)
+    u_scat = sum_n j^n c_n H_n^(2)(k r) e^{j n (phi - phi_i)}
+    F      = sqrt(2 / (pi k)) e^{j pi/4} sum_n (-1)^n c_n e^{j n (phi - phi_i)}
+
+with c_n = -J_n / H_n (TM PEC, sound-soft), -J_n' / H_n' (TE PEC,
+sound-hard) and -(k J_n' - lam J_n) / (k H_n' - lam H_n) for the Robin
+condition du/dn = lam u. The large-argument form of H_n^(2) is DLMF 10.17.6.
+
+Canonical shapes (inline-shape tables for case files)::
+
+    circle            square              L-shape
+      .--.            +------+            +--+
+     /    \\           |      |            |  |
+     \\    /           |      |            |  +---+
+      '--'            +------+            +------+
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.special as sp
+
+C0 = 299_792_458.0
+
+
+def circle_coefficients(ka: float, kind: str, lam_a: complex = 0.0) -> tuple[np.ndarray, np.ndarray]:
+    """Orders n and c_n for a circle of electrical radius ka (lam_a = lam * a)."""
+    nmax = int(ka + 40 + 4 * ka ** (1 / 3))
+    n = np.arange(-nmax, nmax + 1)
+    if kind == "dirichlet":
+        c = -sp.jv(n, ka) / sp.hankel2(n, ka)
+    elif kind == "neumann":
+        c = -sp.jvp(n, ka) / sp.h2vp(n, ka)
+    else:  # robin: k a J' - lam a J over the same for H
+        c = -(ka * sp.jvp(n, ka) - lam_a * sp.jv(n, ka)) / (ka * sp.h2vp(n, ka) - lam_a * sp.hankel2(n, ka))
+    return n, c
+
+
+def circle_far_field(
+    ka: float, k: float, angles_deg: np.ndarray, from_deg: float, kind: str,
+    center: tuple[float, float] = (0.0, 0.0), lam_a: complex = 0.0,
+) -> np.ndarray:
+    """Series far field of a circle centred at ``center``."""
+    n, c = circle_coefficients(ka, kind, lam_a)
+    phi = np.deg2rad(np.asarray(angles_deg))
+    phi_i = np.deg2rad(from_deg)
+    f = np.sqrt(2 / (np.pi * k)) * np.exp(0.25j * np.pi) * (
+        np.exp(1j * np.outer(phi - phi_i, n)) @ ((-1.0) ** np.abs(n) * c)
+    )
+    # Moving the cylinder to ``center`` multiplies F by exp(j k (r_hat + d_i) . center).
+    cx, cy = center
+    shift = np.exp(1j * k * ((np.cos(phi) + np.cos(phi_i)) * cx + (np.sin(phi) + np.sin(phi_i)) * cy))
+    return f * shift
+
+
+def relative_error(f: np.ndarray, ref: np.ndarray) -> float:
+    """max |F - F_ref| / max |F_ref| (complex: phase, position and conventions count)."""
+    return float(np.max(np.abs(f - ref)) / np.max(np.abs(ref)))
+
+
+def case(field: str, frequency_hz: float, bodies: list[dict], *, from_deg=0.0, angles=None, solver=None) -> dict:
+    """A case document (as parsed TOML) with plots and VTK off."""
+    doc = {
+        "title": "test",
+        "wave": {"field": field, "frequency_hz": frequency_hz},
+        "body": bodies,
+        "incident": [{"kind": "plane", "from_deg": from_deg}],
+        "far_field": {"angles_deg": angles if angles is not None else {"start": 0, "stop": 360, "count": 721}},
+        "output": {"plots": False, "vtk": False},
+    }
+    if solver:
+        doc["solver"] = solver
+    return doc
+
+
+SQUARE = {"kind": "rectangle", "width_m": 1.0, "height_m": 1.0}
+L_SHAPE = {"kind": "polygon", "points_m": [[0, 0], [1, 0], [1, 0.5], [0.5, 0.5], [0.5, 1], [0, 1]]}
