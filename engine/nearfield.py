@@ -38,7 +38,8 @@ from __future__ import annotations
 
 import ctypes
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from functools import lru_cache
 from typing import Any
 
@@ -68,7 +69,7 @@ IncidentFn = Callable[[FloatArray], ComplexArray]
 #: ``k r`` above which the far loop uses the fitted Hankel amplitude.
 HANKEL_SPLIT = 6.0
 #: Degree of the Chebyshev fit of the amplitudes (error about 3e-14).
-_AMPLITUDE_DEGREE = 14
+_AMPLITUDE_DEGREE = 12
 #: A target closer to a panel than this fraction of the panel's length is
 #: evaluated on upsampled children when ``upsample > 1``.
 UPSAMPLE_RATIO = 0.25
@@ -118,6 +119,21 @@ def _amplitude_coefficients() -> FloatArray:
     return coef
 
 
+def _horner_sources() -> str:
+    """Python source of the four amplitude polynomials in ``s`` with literal coefficients.
+
+    Literal constants let the compiler unroll and vectorise the far loop.
+    """
+    lines = []
+    for name, row in zip(("m0r", "m0i", "m1r", "m1i"), _amplitude_coefficients(), strict=True):
+        mono = chebyshev.cheb2poly(row)
+        expr = repr(float(mono[-1]))
+        for c in mono[-2::-1]:
+            expr = f"({float(c)!r} + s * {expr})"
+        lines.append(f"def eval_{name}(s):\n    return {expr}\n")
+    return "\n".join(lines)
+
+
 @lru_cache(maxsize=1)
 def _compiled() -> Any:
     """Compile the far-field loop once per process (scipy's Bessel pointers change per process)."""
@@ -145,19 +161,19 @@ def _compiled() -> Any:
     two_over_pi = 2.0 / math.pi
     flags = {"contract", "arcp", "reassoc", "nsz"}
 
-    @numba.njit(inline="always", fastmath=flags)
-    def clenshaw(c, row, s):
-        b1 = 0.0
-        b2 = 0.0
-        two_s = 2.0 * s
-        for m in range(c.shape[1] - 1, 0, -1):
-            b0 = c[row, m] + two_s * b1 - b2
-            b2 = b1
-            b1 = b0
-        return c[row, 0] + s * b1 - b2
+    namespace: dict[str, Any] = {}
+    exec(_horner_sources(), namespace)  # trusted source built from literal coefficients
+    eval_m0r, eval_m0i, eval_m1r, eval_m1i = (
+        numba.njit(inline="always", fastmath=flags, error_model="numpy")(namespace[f"eval_{name}"])
+        for name in ("m0r", "m0i", "m1r", "m1i")
+    )
 
-    @numba.njit(parallel=True, fastmath=flags)
-    def far_sum(tx, ty, sx, sy, snx, sny, a_re, a_im, b_re, b_im, k, coef, chunk):
+    @numba.njit(inline="always", fastmath=flags, error_model="numpy")
+    def amplitudes(s):
+        return eval_m0r(s), eval_m0i(s), eval_m1r(s), eval_m1i(s)
+
+    @numba.njit(parallel=True, fastmath=flags, error_model="numpy")
+    def far_sum(tx, ty, sx, sy, snx, sny, a_re, a_im, b_re, b_im, k, chunk):
         # Returns S1 = sum E1 a and S0 = sum E0 b for pairs with k r >= split
         # (E_nu = exp(-j x) M_nu / sqrt(x), E1 also times r_hat . n_y) and
         # the direct kernel sum for the closer pairs.
@@ -176,22 +192,19 @@ def _compiled() -> Any:
             for i in range(c * chunk, min(m, (c + 1) * chunk)):
                 xi = tx[i]
                 yi = ty[i]
-                n_close = 0
+                n_close = 0.0
                 for j in range(n):
                     dx = xi - sx[j]
                     dy = yi - sy[j]
                     r = math.sqrt(dx * dx + dy * dy)
                     x = k * r
                     keep = 1.0 if x >= split else 0.0
-                    n_close += 1 if x < split else 0
+                    n_close += 1.0 - keep
                     xc = max(x, split)
-                    rc = xc / k
-                    inv_sqrt = keep / math.sqrt(xc)
-                    s = 2.0 * split / xc - 1.0
-                    m0r = clenshaw(coef, 0, s)
-                    m0i = clenshaw(coef, 1, s)
-                    m1r = clenshaw(coef, 2, s)
-                    m1i = clenshaw(coef, 3, s)
+                    inv_x = 1.0 / xc
+                    inv_sqrt = keep * math.sqrt(inv_x)
+                    s = 2.0 * split * inv_x - 1.0
+                    m0r, m0i, m1r, m1i = amplitudes(s)
                     # exp(-j xc) by reduction to [-pi/4, pi/4].
                     q = math.floor(xc * two_over_pi + 0.5)
                     y = ((xc - q * pio2_1) - q * pio2_2) - q * pio2_3
@@ -202,18 +215,21 @@ def _compiled() -> Any:
                     cs_ = 1.0 + y2 * (-0.5 + y2 * (1.0 / 24 + y2 * (-1.0 / 720 + y2 * (
                         1.0 / 40320 + y2 * (-1.0 / 3628800 + y2 * (1.0 / 479001600 + y2 * (
                             -1.0 / 87178291200 + y2 * (1.0 / 20922789888000))))))))
-                    qi = np.int64(q)
-                    odd = qi & 1
-                    sg_c = 1.0 - 2.0 * (((qi + 1) >> 1) & 1)
-                    sg_s = 1.0 - 2.0 * ((qi >> 1) & 1)
-                    cos_x = sg_c * (sn if odd else cs_)
-                    sin_x = sg_s * (cs_ if odd else sn)
+                    # Quadrant arithmetic in floating point (q is a whole number),
+                    # so the loop stays free of integer conversions.
+                    h = math.floor(0.5 * q)
+                    odd = q - 2.0 * h
+                    hp = math.floor(0.5 * (q + 1.0))
+                    sg_c = 1.0 - 2.0 * (hp - 2.0 * math.floor(0.5 * hp))
+                    sg_s = 1.0 - 2.0 * (h - 2.0 * math.floor(0.5 * h))
+                    cos_x = sg_c * (odd * sn + (1.0 - odd) * cs_)
+                    sin_x = sg_s * (odd * cs_ + (1.0 - odd) * sn)
                     # exp(-j x) = cos - j sin
                     pr = cos_x * inv_sqrt
                     pi_ = -sin_x * inv_sqrt
                     e0r[j] = pr * m0r - pi_ * m0i
                     e0i[j] = pr * m0i + pi_ * m0r
-                    proj = (dx * snx[j] + dy * sny[j]) / rc
+                    proj = (dx * snx[j] + dy * sny[j]) * (k * inv_x)
                     e1r[j] = (pr * m1r - pi_ * m1i) * proj
                     e1i[j] = (pr * m1i + pi_ * m1r) * proj
                 for rr in range(nrhs):
@@ -228,7 +244,7 @@ def _compiled() -> Any:
                         acc1i += e1r[j] * a_im[rr, j] + e1i[j] * a_re[rr, j]
                     s0[i, rr] = complex(acc0r, acc0i)
                     s1[i, rr] = complex(acc1r, acc1i)
-                if n_close == 0:
+                if n_close == 0.0:
                     continue
                 for j in range(n):
                     dx = xi - sx[j]
@@ -286,8 +302,7 @@ def _far_part(
         snx, sny = (np.ascontiguousarray(mesh.normals[:, i]) for i in (0, 1))
         parts = [np.ascontiguousarray(v.T) for v in (a.real, a.imag, b.real, b.imag)]
         chunk = int(max(1, min(256, m // 64 + 1)))
-        s0, s1, direct = far_sum(tx, ty, sx, sy, snx, sny, *parts, kr, _amplitude_coefficients(),
-                                 chunk)
+        s0, s1, direct = far_sum(tx, ty, sx, sy, snx, sny, *parts, kr, chunk)
         root = math.sqrt(2.0 / math.pi)
         c0 = 0.25j * root * np.exp(0.25j * np.pi)
         c1 = -0.25j * kr * root * np.exp(0.75j * np.pi)
@@ -390,6 +405,24 @@ def _children(mesh: PanelMesh, panel: int, n_child: int) -> list[dict[str, Any]]
     return out
 
 
+@contextmanager
+def _serial_numba() -> Iterator[None]:
+    """Run the small compiled calls of the near part on one thread.
+
+    Each panel's correction is a few hundred kernel values; a parallel
+    region per panel costs far more than it saves (tens of milliseconds
+    each when the cores are busy and the workers spin).
+    """
+    import numba
+
+    before = numba.get_num_threads()
+    numba.set_num_threads(1)
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
+
+
 def _near_part(
     mesh: PanelMesh,
     k: complex,
@@ -446,7 +479,7 @@ def scattered_field(
     psi: ComplexArray,
     points: ArrayLike,
     *,
-    upsample: int = 1,
+    upsample: int = 2,
 ) -> ComplexArray:
     """Scattered field at points outside every body from the boundary traces.
 
@@ -490,7 +523,8 @@ def scattered_field(
     if pts.shape[0] == 0:
         return np.zeros((0, u2.shape[1]), dtype=complex)
     out = _far_part(mesh, k, u2, psi2, pts)
-    out += _near_part(mesh, k, u2, psi2, pts, int(upsample))
+    with _serial_numba():
+        out += _near_part(mesh, k, u2, psi2, pts, int(upsample))
     return out
 
 
@@ -509,7 +543,7 @@ def _contour_polygons(mesh: PanelMesh) -> list[tuple[FloatArray, float]]:
 
 
 def inside_mask(mesh: PanelMesh, points: ArrayLike) -> NDArray[np.bool_]:
-    """True for points inside any body (holes count as outside).
+    """Mark the points inside any body (holes count as outside).
 
     Parameters
     ----------
@@ -597,7 +631,7 @@ def field_on_grid(
     x: ArrayLike,
     y: ArrayLike,
     *,
-    upsample: int = 1,
+    upsample: int = 2,
 ) -> dict[str, NDArray[Any]]:
     """Total, scattered and incident fields on the grid ``x`` by ``y``.
 
@@ -637,7 +671,7 @@ def field_at_points(
     incident_fn: IncidentFn,
     points: ArrayLike,
     *,
-    upsample: int = 1,
+    upsample: int = 2,
 ) -> dict[str, NDArray[Any]]:
     """Total, scattered and incident fields at probe points.
 

@@ -37,6 +37,7 @@ from .mesh import PanelMesh
 from .quadrature import (
     NEAR_RADIUS,
     gauss_legendre,
+    interpolation_matrix,
     near_weights,
     self_cauchy_weights,
     self_log_weights,
@@ -254,6 +255,23 @@ def _maue(mesh: PanelMesh, k: complex, s_mat: ComplexArray, dt_mat: ComplexArray
     npan, p, n = mesh.n_panels, mesh.p, mesh.n_nodes
     ds = np.stack(mesh.arclength_derivative())  # (npan, p, p)
     t_mat = np.einsum("iaj,ajk->iak", dt_mat.reshape(n, npan, p), ds).reshape(n, n)
+    # The density is a polynomial on each panel, so its true derivative also
+    # holds point masses [u]_J delta(s - s_J) at the panel joints; their
+    # contribution dG/dt_x(x, y_J) [u]_J keeps the discrete T from ignoring
+    # jumps between panels (which it otherwise would, ruining corners).
+    x, _ = gauss_legendre(p)
+    at_start = interpolation_matrix(x, np.array([-1.0]))[0]
+    at_end = interpolation_matrix(x, np.array([1.0]))[0]
+    prev, _ = mesh.neighbours()
+    joints = mesh.ends[:, 0, :]
+    _, _, _, g = kernel_matrices(
+        mesh.nodes, mesh.normals, joints, np.zeros_like(joints), k,
+        want_s=False, want_d=False, want_dp=False, want_dt=True,
+    )  # (n, npan): dG/dt_x at the start joint of every panel
+    g3 = g[:, :, None]
+    t3 = t_mat.reshape(n, npan, p)
+    t3 += g3 * at_start[None, None, :]
+    np.add.at(t3, (slice(None), prev), -g3 * at_end[None, None, :])
     nx, ny = mesh.normals[:, 0], mesh.normals[:, 1]
     t_mat += (k * k) * ((nx[:, None] * nx[None, :] + ny[:, None] * ny[None, :]) * s_mat)
     return t_mat
