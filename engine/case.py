@@ -33,14 +33,14 @@ The schema (keys may be added, never renamed)::
 from __future__ import annotations
 
 import math
-import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from dataclasses import field as dc_field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
-
+import tomllib
 from sectionwave.importers.curves import (
     Body,
     Contour,
@@ -131,7 +131,7 @@ class Scene:
     near_field: NearFieldSpec | None = None
     source: str = "<case>"
     drawing_audit: dict[str, Any] | None = None
-    notes: list[str] = field(default_factory=list)
+    notes: list[str] = dc_field(default_factory=list)
 
     def wavenumber(self, frequency_hz: float) -> float:
         """``k = 2 pi f / c`` in rad/m."""
@@ -522,15 +522,20 @@ def _check_disjoint(source: str, bodies: list[BodySpec]) -> None:
 
 
 def _load_geometry(r: _Reader, base_dir: Path | None) -> tuple[Any, dict[str, Any]]:
-    from sectionwave.importers import load_bodies  # type: ignore[attr-defined]
+    """Read and clean the case's drawing: ``[(layer, Body), ...]`` and the audit."""
+    from sectionwave.importers import clean_drawing, read_drawing
 
     path = Path(r.text("file"))
     if not path.is_absolute() and base_dir is not None:
         path = base_dir / path
-    units = r.text("units", None) if r.has("units") else None
+    units = r.text("units") if r.has("units") else None
     gap = r.number("gap_tol_m", positive=True) if r.has("gap_tol_m") else None
     r.finish()
-    return load_bodies(path, units=units, gap_tol_m=gap)
+    drawing = read_drawing(path, units=units)
+    cleaned = clean_drawing(drawing, gap_tol_m=gap)
+    cleaned.raise_for_errors()
+    audit = {"file": str(path), "units": drawing.units, **cleaned.audit.to_dict()}
+    return list(zip(cleaned.layers, cleaned.bodies, strict=True)), audit
 
 
 def _pick_from_drawing(br: _Reader, how: str, drawing: Any) -> tuple[list[Body], str]:

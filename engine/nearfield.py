@@ -464,7 +464,7 @@ def _near_part(
                 acc += _plain_panel(k, zc, child["tau"], child["n"], child["omega"], uc, pc)
                 near = np.abs(zc - child["center"]) < child["reach"]
                 if np.any(near):
-                    acc[near] += _panel_product(
+                    acc[near] += _panel_product(  # type: ignore[call-arg]
                         k, zc[near], child["tau"], child["tau_t"], child["n"], child["omega"],
                         *child["ends"], uc, pc,
                     )

@@ -23,7 +23,6 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
-
 from sectionwave.importers.errors import SectionwaveWarning
 
 from .case import MU0_H_M, Scene

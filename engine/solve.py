@@ -14,7 +14,6 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg as la
 from numpy.typing import NDArray
-
 from sectionwave.importers.errors import SectionwaveError
 
 __all__ = [

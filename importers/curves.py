@@ -76,11 +76,11 @@ class Segment(ABC):
 
     @abstractmethod
     def reversed(self) -> Segment:
-        """The same curve traversed the other way."""
+        """Return the same curve traversed the other way."""
 
     @abstractmethod
     def transformed(self, matrix: ArrayLike, offset: ArrayLike = (0.0, 0.0)) -> Segment:
-        """The exact image under ``x -> matrix @ x + offset``."""
+        """Return the exact image under ``x -> matrix @ x + offset``."""
 
     def subdivision_hints(self) -> FloatArray:
         """Parameters where the curve should be split before meshing.
@@ -104,36 +104,36 @@ class Segment(ABC):
         """Arc length, by composite Gauss-Legendre quadrature (exact to rounding)."""
         hints = self.subdivision_hints()
         total = 0.0
-        for a, b in zip(hints[:-1], hints[1:]):
+        for a, b in zip(hints[:-1], hints[1:], strict=True):
             for lo, hi in _split(a, b, 8):
                 t = lo + (hi - lo) * _GL_T
                 speed = np.hypot(*self.derivative(t).T)
                 total += (hi - lo) * float(np.dot(_GL_WT, speed))
-        return total
+        return float(total)
 
     def area_integral(self) -> float:
-        """The integral of ``(x dy - y dx) / 2`` along the segment.
+        """Integrate ``(x dy - y dx) / 2`` along the segment.
 
         Summed over a closed contour this is its signed area.
         """
         hints = self.subdivision_hints()
         total = 0.0
-        for a, b in zip(hints[:-1], hints[1:]):
+        for a, b in zip(hints[:-1], hints[1:], strict=True):
             for lo, hi in _split(a, b, 8):
                 t = lo + (hi - lo) * _GL_T
                 p = self.points(t)
                 d = self.derivative(t)
                 f = 0.5 * (p[:, 0] * d[:, 1] - p[:, 1] * d[:, 0])
                 total += (hi - lo) * float(np.dot(_GL_WT, f))
-        return total
+        return float(total)
 
     def tangent(self, t: ArrayLike) -> FloatArray:
-        """Unit tangent, shape ``(n, 2)``."""
+        """Return the unit tangent, shape ``(n, 2)``."""
         d = self.derivative(t)
         return d / np.hypot(d[:, 0], d[:, 1])[:, None]
 
     def normal(self, t: ArrayLike) -> FloatArray:
-        """Unit normal: the tangent turned clockwise (out of the body)."""
+        """Return the unit normal: the tangent turned clockwise (out of the body)."""
         tan = self.tangent(t)
         return np.column_stack([tan[:, 1], -tan[:, 0]])
 
@@ -147,7 +147,7 @@ class Segment(ABC):
 
 def _split(a: float, b: float, n: int) -> list[tuple[float, float]]:
     edges = np.linspace(a, b, n + 1)
-    return list(zip(edges[:-1], edges[1:]))
+    return list(zip(edges[:-1], edges[1:], strict=True))
 
 
 def _matrix(matrix: ArrayLike) -> FloatArray:
@@ -188,6 +188,11 @@ class Line(Segment):
 
     def length(self) -> float:
         return float(np.hypot(*(self.p1 - self.p0)))
+
+    def area_integral(self) -> float:
+        # closed form of the integral of (x dy - y dx) / 2 along a straight line
+        (x0, y0), (x1, y1) = self.p0, self.p1
+        return 0.5 * float(x0 * y1 - x1 * y0)
 
 
 @dataclass(frozen=True, eq=False)
@@ -238,6 +243,16 @@ class EllipticalArc(Segment):
         m, b = _matrix(matrix), np.asarray(offset, dtype=float)
         return EllipticalArc(m @ self.center + b, m @ self.axes, self.theta0, self.sweep)
 
+    def area_integral(self) -> float:
+        # With p = c + A u(theta): x dy - y dx = c x (A u') + det(A) (u x u'), and
+        # u x u' = 1, so the integral is closed form (exact for any axes matrix).
+        th1 = self.theta0 + self.sweep
+        th0 = self.theta0
+        du = np.array([math.cos(th1) - math.cos(th0), math.sin(th1) - math.sin(th0)])
+        w = self.axes @ du
+        c = self.center
+        return 0.5 * float(c[0] * w[1] - c[1] * w[0] + np.linalg.det(self.axes) * self.sweep)
+
     def subdivision_hints(self) -> FloatArray:
         n = max(1, math.ceil(abs(self.sweep) / (0.5 * math.pi) - 1e-9))
         return np.linspace(0.0, 1.0, n + 1)
@@ -256,7 +271,7 @@ def circular_arc(
     """
     if not radius > 0:
         raise GeometryError(f"an arc radius must be positive, got {radius!r}")
-    return EllipticalArc(center, radius * np.eye(2), start_angle, sweep)
+    return EllipticalArc(np.asarray(center, dtype=float), radius * np.eye(2), start_angle, sweep)
 
 
 @dataclass(frozen=True, eq=False)
@@ -444,11 +459,11 @@ class Contour:
         return self.signed_area() > 0.0
 
     def reversed(self) -> Contour:
-        """The same contour traversed the other way."""
+        """Return the same contour traversed the other way."""
         return Contour(tuple(s.reversed() for s in reversed(self.segments)), self.source)
 
     def oriented(self, ccw: bool) -> Contour:
-        """This contour, reversed if needed to run counter-clockwise (or clockwise)."""
+        """Return this contour, reversed if needed to run counter-clockwise (or clockwise)."""
         return self if self.is_ccw == ccw else self.reversed()
 
     def transformed(self, matrix: ArrayLike, offset: ArrayLike = (0.0, 0.0)) -> Contour:
@@ -475,7 +490,8 @@ class Contour:
     def bounding_box(self) -> tuple[float, float, float, float]:
         """``(xmin, ymin, xmax, ymax)`` from a dense sample (arcs included)."""
         p = self.sample(256)
-        return (float(p[:, 0].min()), float(p[:, 1].min()), float(p[:, 0].max()), float(p[:, 1].max()))
+        lo, hi = p.min(axis=0), p.max(axis=0)
+        return (float(lo[0]), float(lo[1]), float(hi[0]), float(hi[1]))
 
 
 @dataclass(frozen=True, eq=False)
@@ -512,7 +528,7 @@ class Body:
         )
 
     def contains(self, points: ArrayLike) -> NDArray[np.bool_]:
-        """True for points inside the solid (not in a hole); boundary is ambiguous."""
+        """Tell which points lie inside the solid (not in a hole); boundary is ambiguous."""
         from matplotlib.path import Path
 
         pts = np.asarray(points, dtype=float).reshape(-1, 2)

@@ -7,8 +7,8 @@ import math
 
 import numpy as np
 import pytest
-
 from sectionwave.engine import parse_case, solve_scene
+
 from tests.reference import C0, case, circle_far_field, relative_error
 
 # Bessel zeros from DLMF table 10.21 (j_{0,1} and j'_{1,1}), the interior
