@@ -56,10 +56,14 @@ class SurfaceConditions:
     """Boundary condition of every node: a kind code and the Robin factor ``lam``.
 
     ``psi = lam * u`` on Robin nodes; ``lam`` is ignored elsewhere.
+    ``panel_length`` (the length of each node's panel) lets the rows of
+    the Burton-Miller equations be balanced on the tiny panels next to
+    corners, where ``alpha T`` grows like 1 / length.
     """
 
     kind: NDArray[np.int64]
     lam: ComplexArray
+    panel_length: NDArray[np.float64] | None = None
 
     @property
     def has_dirichlet(self) -> bool:
@@ -99,11 +103,19 @@ def _columns(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, Complex
 
 
 def _rows(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArray]:
-    """Row weights; Dirichlet rows are divided by ``|k|`` (a pure scaling)."""
+    """Row weights (pure scalings of each equation, so the solution is unchanged).
+
+    Dirichlet rows are divided by ``|k|``. Burton-Miller rows on a panel of
+    length ``h`` are multiplied by ``h / (h + 1/|k|)``: the hypersingular
+    part scales like ``1/h`` there, and this keeps the system's condition
+    number near its smooth-body value however deep the corner refinement
+    (measured on the square: 3.6e12 -> 7e4 at 32 levels).
+    """
     alpha, beta = coupling_constants(k)
     is_d = cond.kind == DIRICHLET
-    c1 = np.where(is_d, beta / abs(k), 1.0).astype(complex)
-    c2 = np.where(is_d, 1.0 / abs(k), alpha).astype(complex)
+    balance = 1.0 if cond.panel_length is None else cond.panel_length / (cond.panel_length + 1.0 / abs(k))
+    c1 = np.where(is_d, beta / abs(k), balance).astype(complex)
+    c2 = np.where(is_d, 1.0 / abs(k), alpha * balance).astype(complex)
     return c1, c2
 
 

@@ -140,7 +140,7 @@ def _conditions(scene: Scene, mesh: PanelMesh, k: float) -> SurfaceConditions:
             kind[sel] = NEUMANN
         else:
             kind[sel] = DIRICHLET
-    return SurfaceConditions(kind, lam)
+    return SurfaceConditions(kind, lam, np.repeat(mesh.lengths, mesh.p))
 
 
 def _panel_estimates(mesh: PanelMesh, x: ComplexArray) -> NDArray[np.float64]:
