@@ -583,7 +583,8 @@ def main(argv=None) -> None:
     items = {int(x) for x in args.items.split(",") if x.strip()}
     t_start = time.perf_counter()
     print(f"sectionwave solver benchmarks; {os.cpu_count()} cores, "
-          f"{available_memory_bytes() / 2**30:.1f} GiB available; numpy {np.__version__}")
+          f"{available_memory_bytes() / 2**30:.1f} GiB available; numpy {np.__version__}; "
+          f"load average {os.getloadavg()[0]:.2f} (times are wall clock: other load skews them)")
     warm_up(args.p)
     summary: dict = {}
     circle = item_circle(args, summary) if (1 in items or 3 in items) else None
@@ -594,7 +595,8 @@ def main(argv=None) -> None:
     if 4 in items or 5 in items:
         item_assembly_memory(args, summary)
     print_summary(args, summary)
-    print(f"\nwall time {time.perf_counter() - t_start:.0f} s")
+    print(f"\nwall time {time.perf_counter() - t_start:.0f} s; load average now "
+          f"{os.getloadavg()[0]:.2f}")
 
 
 if __name__ == "__main__":

@@ -79,16 +79,24 @@ def _run(args: argparse.Namespace) -> int:
 
 
 def _inspect(args: argparse.Namespace) -> int:
+    from sectionwave.importers import clean_drawing, read_drawing
     from sectionwave.importers import inspect as insp
 
-    report = insp.inspect_drawing(Path(args.drawing), units=args.units, layers=args.layer)
+    drawing = read_drawing(Path(args.drawing), units=args.units, layers=args.layer)
+    cleaned = clean_drawing(drawing)
+    report = insp.inspection_report(drawing, cleaned)
     if args.preview is not None:
-        insp.write_preview_png(Path(args.drawing), args.preview, units=args.units, layers=args.layer)
+        insp.write_preview_png(cleaned, args.preview)
     if args.json:
         print(json.dumps(report, indent=2, default=str))
     else:
         print(insp.format_inspection(report))
-    return EXIT_BAD_INPUT if report.get("audit", {}).get("errors") else EXIT_OK
+    errors = report.get("audit", {}).get("errors") or []
+    if errors or not cleaned.bodies:
+        first = errors[0]["message"] if errors else "no closed body found"
+        print(f"sectionwave: error: {args.drawing}: {first}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    return EXIT_OK
 
 
 class _BadInput(Exception):

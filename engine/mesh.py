@@ -40,6 +40,17 @@ MAX_TURN_RAD = 1.0
 #: A panel may be at most this many times longer than its distance to a
 #: non-adjacent piece of boundary (thin gaps, close bodies).
 GAP_RATIO = 1.0
+#: Same-contour boundary counts as a gap only if it is this many times
+#: farther along the contour than across (a slot at least ten widths deep).
+SLOT_RATIO = 20.0
+#: Panels are halved in their curve parameter, so on an unevenly
+#: parametrised curve the halves differ slightly in length; a neighbour
+#: ratio up to 2 * RATIO_SLACK is accepted rather than chasing 2 exactly
+#: (which can cascade along the whole curve).
+RATIO_SLACK = 1.1
+#: Deepest dyadic refinement toward a corner (panels of 2^-40 of the first
+#: one; the near-panel Vandermonde systems stay well posed).
+MAX_CORNER_LEVELS = 40
 #: Hard cap on the number of panels, far above any dense problem.
 MAX_PANELS = 200_000
 
@@ -181,15 +192,36 @@ class PanelMesh:
         )
 
 
-def corner_levels_for(tolerance: float) -> int:
-    """Dyadic levels of refinement toward a corner for a target tolerance.
+def _corner_levels(mesh: PanelMesh, panel: int, prev: IntArray, cap: int, tolerance: float) -> int:
+    """Dyadic levels the corner at the start of ``panel`` needs.
 
-    The density next to a corner behaves like a power of the distance, so
-    the innermost panel's contribution shrinks geometrically with each
-    level (measured on the square and L-shape: 1.2 levels per binary digit keeps
-    the optical theorem and reciprocity within the tolerance).
+    Near a corner whose exterior (field-side) angle is ``alpha`` the fields
+    behave like ``r^(pi/alpha)`` (Meixner's edge condition, from memory), so
+    the innermost panel's share of the error falls like ``h^(pi/alpha)``:
+    ``levels = 0.8 log2(1/tol) / (pi/alpha)``, calibrated on the square
+    (``alpha = 3 pi / 2``). Integer exponents (re-entrant right angles and the
+    like) give smooth fields and need only a few levels.
     """
-    return int(min(60, max(4, math.ceil(1.2 * math.log2(1.0 / tolerance)))))
+    seg_in = mesh.segments[mesh.seg_of_panel[prev[panel]]]
+    seg_out = mesh.segments[mesh.seg_of_panel[panel]]
+    t_in = seg_in.tangent(mesh.t1[prev[panel]])[0]
+    t_out = seg_out.tangent(mesh.t0[panel])[0]
+    turn = math.atan2(t_in[0] * t_out[1] - t_in[1] * t_out[0], float(np.dot(t_in, t_out)))
+    alpha = math.pi + turn  # exterior angle: a convex right-angle corner has 3 pi / 2
+    nu = math.pi / max(alpha, 1e-3)
+    if abs(nu - round(nu)) < 1e-3:
+        return min(cap, 4)
+    want = math.ceil(0.8 * math.log2(1.0 / tolerance) / nu)
+    return int(min(cap, MAX_CORNER_LEVELS, max(4, want)))
+
+
+def corner_levels_for(tolerance: float) -> int:
+    """Upper bound on the dyadic levels toward any corner for a target tolerance.
+
+    Each corner then takes what its angle needs (``_corner_levels``); the
+    sharpest wedges need the most, about two levels per binary digit.
+    """
+    return int(min(MAX_CORNER_LEVELS, max(4, math.ceil(2.0 * math.log2(1.0 / tolerance)))))
 
 
 @dataclass
@@ -294,15 +326,20 @@ def build_panels(
 
     mesh = _to_mesh(p, segments, contours, boundaries)
     # 2. Thin gaps and close bodies; 3. neighbour ratio; repeated to a fixed point.
-    for _ in range(40):
+    for _ in range(20):
         marked = set(_gap_violations(mesh)) | set(_ratio_violations(mesh))
         if not marked:
             break
         mesh = mesh.split(sorted(marked))
-    # 4. Dyadic refinement toward corners.
-    for _ in range(levels):
+    # 4. Dyadic refinement toward corners, as deep as each corner's angle needs.
+    for level in range(MAX_CORNER_LEVELS):
         prev, nxt = mesh.neighbours()
         corner_pan = np.flatnonzero(mesh.corner_at_start)
+        if corner_levels is None:
+            need = np.array([_corner_levels(mesh, int(i), prev, levels, tolerance) for i in corner_pan], dtype=int)
+        else:
+            need = np.full(corner_pan.size, min(levels, MAX_CORNER_LEVELS))
+        corner_pan = corner_pan[need > level]
         touching = set(corner_pan.tolist()) | set(prev[corner_pan].tolist())
         if not touching:
             break
@@ -337,7 +374,8 @@ def _to_mesh(
 def _ratio_violations(mesh: PanelMesh) -> list[int]:
     prev, nxt = mesh.neighbours()
     lengths = mesh.lengths
-    bad = (lengths > 2.0 * lengths[prev] * (1 + 1e-9)) | (lengths > 2.0 * lengths[nxt] * (1 + 1e-9))
+    limit = 2.0 * RATIO_SLACK
+    bad = (lengths > limit * lengths[prev]) | (lengths > limit * lengths[nxt])
     return np.flatnonzero(bad).tolist()
 
 
@@ -371,16 +409,20 @@ def _gap_violations(mesh: PanelMesh) -> list[int]:
         hits = tree.query_ball_point(own, r=length / GAP_RATIO)
         c = int(mesh.contour_of_panel[i])
         a, b, loop = start[i], start[i] + length, total[c]
-        for near in hits:
+        for row, near in zip(own, hits):
             if not near:
                 continue
             j = np.array(near)
             same = contour[j] == c
+            euclid = np.hypot(*(mesh.nodes[j] - row).T)
             s_j = arc_node[j]
             # circular distance from s_j to the interval [a, b]
             d = np.where((s_j >= a) & (s_j <= b), 0.0, np.minimum(np.abs(s_j - a), np.abs(s_j - b)))
             d = np.minimum(d, loop - np.maximum(np.abs(s_j - a), np.abs(s_j - b)))
-            if np.any(~same | (d > 2.0 * length)):
+            # Far along the contour and much farther along it than across:
+            # a slot or a thin gap. The sides of a wedge near its tip are
+            # close too, but there dyadic corner refinement does the work.
+            if np.any(~same | ((d > 2.0 * length) & (d > SLOT_RATIO * euclid))):
                 bad.append(i)
                 break
     return bad

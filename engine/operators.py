@@ -28,6 +28,7 @@ product weights (see ``quadrature``); all others are plain Gauss-Legendre.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -251,14 +252,13 @@ def _maue(mesh: PanelMesh, k: complex, s_mat: ComplexArray, dt_mat: ComplexArray
     ``d/ds_x S (f')`` is written as ``Dt f'`` (the derivative moved onto the
     kernel), so only the density is differentiated, panel by panel; an
     outer numerical derivative would make the discrete system unstable.
+    The density is a polynomial on each panel, so its true derivative also
+    holds point masses ``[u]_J delta(s - s_J)`` at the panel joints; their
+    contribution ``dG/dt_x(x, y_J) [u]_J`` keeps the discrete T from
+    ignoring jumps between panels (which it otherwise would, ruining corners).
     """
-    npan, p, n = mesh.n_panels, mesh.p, mesh.n_nodes
-    ds = np.stack(mesh.arclength_derivative())  # (npan, p, p)
-    t_mat = np.einsum("iaj,ajk->iak", dt_mat.reshape(n, npan, p), ds).reshape(n, n)
-    # The density is a polynomial on each panel, so its true derivative also
-    # holds point masses [u]_J delta(s - s_J) at the panel joints; their
-    # contribution dG/dt_x(x, y_J) [u]_J keeps the discrete T from ignoring
-    # jumps between panels (which it otherwise would, ruining corners).
+    npan, p = mesh.n_panels, mesh.p
+    ds = mesh.arclength_derivative()
     x, _ = gauss_legendre(p)
     at_start = interpolation_matrix(x, np.array([-1.0]))[0]
     at_end = interpolation_matrix(x, np.array([1.0]))[0]
@@ -268,10 +268,32 @@ def _maue(mesh: PanelMesh, k: complex, s_mat: ComplexArray, dt_mat: ComplexArray
         mesh.nodes, mesh.normals, joints, np.zeros_like(joints), k,
         want_s=False, want_d=False, want_dp=False, want_dt=True,
     )  # (n, npan): dG/dt_x at the start joint of every panel
-    g3 = g[:, :, None]
-    t3 = t_mat.reshape(n, npan, p)
-    t3 += g3 * at_start[None, None, :]
-    np.add.at(t3, (slice(None), prev), -g3 * at_end[None, None, :])
-    nx, ny = mesh.normals[:, 0], mesh.normals[:, 1]
-    t_mat += (k * k) * ((nx[:, None] * nx[None, :] + ny[:, None] * ny[None, :]) * s_mat)
+    t_mat = np.empty_like(dt_mat)
+    for a in range(npan):
+        blk = slice(a * p, (a + 1) * p)
+        np.matmul(dt_mat[:, blk], ds[a], out=t_mat[:, blk])
+    for a in range(npan):
+        t_mat[:, a * p : (a + 1) * p] += g[:, a : a + 1] * at_start[None, :]
+        b = int(prev[a])
+        t_mat[:, b * p : (b + 1) * p] -= g[:, a : a + 1] * at_end[None, :]
+    add_normal_term(t_mat, s_mat, mesh.normals, complex(k * k))
     return t_mat
+
+
+def add_normal_term(t_mat: ComplexArray, s_mat: ComplexArray, normals: NDArray[np.float64], k2: complex) -> None:
+    """``T += k^2 (n_x . n_y) S`` in place (compiled, no N x N temporaries)."""
+    _normal_term()(t_mat, s_mat, np.ascontiguousarray(normals[:, 0]), np.ascontiguousarray(normals[:, 1]), k2)
+
+
+@lru_cache(maxsize=1)
+def _normal_term():
+    import numba
+
+    @numba.njit(parallel=True)
+    def run(t_mat, s_mat, nx, ny, k2):
+        n = nx.size
+        for i in numba.prange(n):
+            for j in range(n):
+                t_mat[i, j] += k2 * (nx[i] * nx[j] + ny[i] * ny[j]) * s_mat[i, j]
+
+    return run

@@ -171,27 +171,34 @@ def _arg_change(tn: ComplexArray, zn: ComplexArray) -> FloatArray:
     """
     p = tn.size
     x, _ = gauss_legendre(p)
-    coef = legendre_analysis_matrix(p) @ tn
-    dcoef = legendre.legder(coef)
-    ddcoef = legendre.legder(dcoef)
-    nearest = np.argmin(np.abs(tn[:, None] - zn[None, :]), axis=0)
-    t = x[nearest].copy()
-    for _ in range(8):
-        pos = legendre.legval(t, coef)
-        d1 = legendre.legval(t, dcoef)
-        d2 = legendre.legval(t, ddcoef)
-        f = np.real((pos - zn) * np.conj(d1))
-        fp = np.abs(d1) ** 2 + np.real((pos - zn) * np.conj(d2))
-        step = np.where(fp > 0, f / np.where(fp > 0, fp, 1.0), 0.0)
-        t = np.clip(t - step, -1.0, 1.0)
-    foot = legendre.legval(t, coef)
     path_t = np.concatenate([[-1.0], x, [1.0]])
     path = np.concatenate([[-1.0 + 0j], tn, [1.0 + 0j]])
     steps = np.angle((path[1:, None] - zn[None, :]) / (path[:-1, None] - zn[None, :]))
-    cols = np.arange(zn.size)
+    # Only targets closer to the panel than its node spacing can fall between
+    # the curve and the polygon of its nodes; find their foot points.
+    dist = np.abs(tn[:, None] - zn[None, :])
+    nearest = np.argmin(dist, axis=0)
+    close = np.flatnonzero(dist[nearest, np.arange(zn.size)] < 4.0 / p)
+    if close.size == 0:
+        return steps.sum(axis=0)
+    zc = zn[close]
+    coef = legendre_analysis_matrix(p) @ tn
+    basis = np.stack(
+        [coef, np.append(legendre.legder(coef), 0.0), np.append(legendre.legder(coef, 2), [0.0, 0.0])],
+        axis=1,
+    )
+    t = x[nearest[close]].copy()
+    for _ in range(6):
+        vals = legendre.legvander(t, p - 1) @ basis  # (m, 3): position, first, second derivative
+        pos, d1, d2 = vals[:, 0], vals[:, 1], vals[:, 2]
+        f = np.real((pos - zc) * np.conj(d1))
+        fp = np.abs(d1) ** 2 + np.real((pos - zc) * np.conj(d2))
+        step = np.where(fp > 0, f / np.where(fp > 0, fp, 1.0), 0.0)
+        t = np.clip(t - step, -1.0, 1.0)
+    foot = legendre.legvander(t, p - 1) @ coef
     seg = np.clip(np.searchsorted(path_t, t, side="right") - 1, 0, p)
     lo, hi = path[seg], path[seg + 1]
-    steps[seg, cols] = np.angle((foot - zn) / (lo - zn)) + np.angle((hi - zn) / (foot - zn))
+    steps[seg, close] = np.angle((foot - zc) / (lo - zc)) + np.angle((hi - zc) / (foot - zc))
     return steps.sum(axis=0)
 
 

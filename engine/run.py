@@ -5,10 +5,11 @@ Glossary
 estimated error
     The a-posteriori estimate: on each panel, the size of the last two
     Legendre coefficients of the boundary unknown, times the panel length,
-    relative to the unknown's integral over the whole boundary. Panels
-    above the tolerance are halved and the system solved again, at most
-    ``max_refinements`` times. When a refinement happened, the change of
-    the far field between the last two meshes is reported too.
+    relative to the unknown's integral over the whole boundary, summed; once
+    a refinement has happened, the smaller of that and the far-field change
+    under the last refinement; never less than the optical-theorem residual.
+    Panels carrying half the estimate are halved and the system solved
+    again, at most ``max_refinements`` times.
 """
 
 from __future__ import annotations
@@ -207,6 +208,7 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
     timings = {"mesh_s": time.perf_counter() - t_mesh, "assemble_s": 0.0, "factorise_and_solve_s": 0.0}
     previous_ff = None
     change = None
+    widths: dict[str, NDArray[np.float64]] = {}
     refinements = 0
     angles = scene.far_field_deg
     while True:
@@ -222,6 +224,15 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
         # The far-field change under the last refinement measures the error
         # of the coarser mesh, so it bounds the final one as well.
         estimated = tail_estimate if change is None else min(tail_estimate, change)
+        # The optical theorem is necessary, not sufficient: a residual above
+        # the estimate proves the estimate too optimistic.
+        plane_cols = [i for i, c in enumerate(columns) if c["kind"] == "plane"]
+        if plane_cols:
+            widths = cross_sections(
+                mesh, k, u[:, plane_cols], psi[:, plane_cols],
+                np.array([columns[i]["from_deg"] for i in plane_cols]),
+            )
+            estimated = max(estimated, float(np.max(widths["optical_residual"])))
         if estimated <= scene.tolerance or refinements >= scene.max_refinements:
             break
         # Doerfler marking: the fewest panels carrying half the estimate.
@@ -234,12 +245,10 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
         mesh = _regrade(mesh.split(sorted(bad.tolist())))
     t_post = time.perf_counter()
     mono = np.full(len(columns), np.nan + 0j)
-    plane_cols = [i for i, c in enumerate(columns) if c["kind"] == "plane"]
     for i in plane_cols:
         mono[i] = far_field(mesh, k, u[:, [i]], psi[:, [i]], np.array([columns[i]["from_deg"]]))[0, 0]
-    widths: dict[str, NDArray[np.float64]] = {}
-    if plane_cols:
-        widths = cross_sections(mesh, k, u[:, plane_cols], psi[:, plane_cols], np.array([columns[i]["from_deg"] for i in plane_cols]))
+    if not plane_cols:
+        widths = {}
     timings["far_field_s"] = time.perf_counter() - t_post
     notes = []
     if estimated > scene.tolerance:
