@@ -24,9 +24,10 @@ The schema (keys may be added, never renamed)::
     [[incident]]  kind = "plane", from_deg = ...  |  kind = "line", position_m = [x, y]
     [far_field]   angles_deg = ...
     [near_field]  x_m = [min, max], y_m = [min, max], spacing_m = ... | count = [nx, ny],
-                  probes_csv = "probes.csv"
+                  probes_csv = "probes.csv", from_deg = ... (plane waves to map;
+                  default all incident waves)
     [solver]      tolerance = 1e-8, nodes_per_panel = 16, max_panel_wavelengths = auto,
-                  max_refinements = 4
+                  max_refinements = 10
     [output]      time_convention = "engineering" | "physics", plots = true, vtk = true
 """
 
@@ -107,6 +108,7 @@ class NearFieldSpec:
     x: np.ndarray | None
     y: np.ndarray | None
     probes: np.ndarray | None
+    from_deg: tuple[float, ...] | None = None
 
 
 @dataclass
@@ -124,7 +126,7 @@ class Scene:
     tolerance: float = 1e-8
     nodes_per_panel: int = 16
     max_panel_wavelengths: float | None = None
-    max_refinements: int = 4
+    max_refinements: int = 10
     time_convention: str = "engineering"
     plots: bool = True
     vtk: bool = True
@@ -413,7 +415,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         raise sr.fail("nodes_per_panel", f"must be an integer from 4 to 32, got {p!r}")
     mpw = sr.number("max_panel_wavelengths", positive=True) if sr.has("max_panel_wavelengths") else None
     sr.used.add("max_panel_wavelengths")
-    refinements = sr.get("max_refinements", 4)
+    refinements = sr.get("max_refinements", 10)
     if isinstance(refinements, bool) or not isinstance(refinements, int) or not 0 <= refinements <= 20:
         raise sr.fail("max_refinements", f"must be an integer from 0 to 20, got {refinements!r}")
     sr.finish()
@@ -482,8 +484,9 @@ def _near_field(r: _Reader, base_dir: Path | None) -> NearFieldSpec:
         probes = _read_probes(r, path)
     if x is None and probes is None:
         raise r.fail("x_m", "give a grid (x_m, y_m, spacing_m or count) or probes_csv")
+    angles = r.values("from_deg") if r.has("from_deg") else None
     r.finish()
-    return NearFieldSpec(x, y, probes)
+    return NearFieldSpec(x, y, probes, angles)
 
 
 def _read_probes(r: _Reader, path: Path) -> np.ndarray:

@@ -588,7 +588,10 @@ def inside_mask(mesh: PanelMesh, points: ArrayLike) -> NDArray[np.bool_]:
         arg = np.zeros((idx.size, mesh.n_panels))
         for lo in range(0, idx.size, 4096):
             sl = slice(lo, min(idx.size, lo + 4096))
-            arg[sl] = np.angle((zb[None, :] - z[sl, None]) / (za[None, :] - z[sl, None]))
+            # A point exactly on a panel end is on the boundary; its angle is
+            # undefined and the point is reported as inside (masked).
+            with np.errstate(divide="ignore", invalid="ignore"):
+                arg[sl] = np.angle((zb[None, :] - z[sl, None]) / (za[None, :] - z[sl, None]))
         tau_all = mesh.complex_nodes()
         p = mesh.p
         for panel, tgt in pairs:

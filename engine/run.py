@@ -26,7 +26,7 @@ import numpy as np
 from numpy.typing import NDArray
 from sectionwave.importers.errors import SectionwaveWarning
 
-from .case import MU0_H_M, Scene
+from .case import MU0_H_M, CaseError, Scene
 from .fields import cross_sections, echo_width, far_field, line_source_wave, plane_wave
 from .formulations import (
     DIRICHLET,
@@ -87,6 +87,7 @@ class FrequencyResult:
     refinements: int
     timings_s: dict[str, float]
     warnings: list[str] = field(default_factory=list)
+    near: dict[str, Any] | None = None
 
 
 @dataclass
@@ -262,7 +263,13 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
         msg = f"at {freq:.6g} Hz the system condition number is {condition:.2e}"
         warnings.warn(msg, IllConditionedWarning, stacklevel=3)
         notes.append(msg)
+    near = None
+    if scene.near_field is not None:
+        t_near = time.perf_counter()
+        near = _near_fields(scene, mesh, k, u, psi, columns)
+        timings["near_field_s"] = time.perf_counter() - t_near
     return FrequencyResult(
+        near=near,
         frequency_hz=freq,
         k=k,
         wavelength_m=lam,
@@ -282,6 +289,42 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
         timings_s=timings,
         warnings=notes,
     )
+
+
+def _near_fields(
+    scene: Scene, mesh: PanelMesh, k: float, u: ComplexArray, psi: ComplexArray,
+    columns: list[dict[str, Any]],
+) -> dict[str, Any]:
+    """Fields on the case's grid and at its probes for the selected incident waves."""
+    from .nearfield import field_at_points, field_on_grid
+
+    spec = scene.near_field
+    assert spec is not None
+    if spec.from_deg is None:
+        chosen = list(range(len(columns)))
+    else:
+        chosen = [
+            i for i, c in enumerate(columns)
+            if c["kind"] == "plane" and any(abs(c["from_deg"] - a) < 1e-9 for a in spec.from_deg)
+        ]
+        if not chosen:
+            raise CaseError(
+                f"{scene.source}: [near_field.from_deg] {list(spec.from_deg)} matches no plane-wave "
+                "incidence; use angles listed in [[incident]] from_deg"
+            )
+    cols = [columns[i] for i in chosen]
+
+    def incident(points: NDArray[np.float64]) -> ComplexArray:
+        return incident_values(cols, points, np.zeros_like(points), k)[0]
+
+    out: dict[str, Any] = {"columns": chosen}
+    if spec.x is not None and spec.y is not None:
+        out["grid"] = field_on_grid(mesh, k, u[:, chosen], psi[:, chosen], incident, spec.x, spec.y)
+        out["x"], out["y"] = spec.x, spec.y
+    if spec.probes is not None:
+        out["probes"] = field_at_points(mesh, k, u[:, chosen], psi[:, chosen], incident, spec.probes)
+        out["probe_points"] = spec.probes
+    return out
 
 
 def panel_wavelengths(scene: Scene) -> float:

@@ -6,8 +6,8 @@ import math
 
 import ezdxf
 import pytest
-
 from sectionwave.engine import parse_case, solve_scene
+
 from tests.reference import C0, circle_far_field, relative_error
 
 

@@ -132,8 +132,8 @@ def write_run(result: Any, out_dir: Path, *, convention: str | None = None) -> l
     written.append("surface.csv")
     if scene.vtk:
         written += _write_boundary_vtk(result, out_dir, conv)
-    if getattr(result, "near", None) is not None:
-        written += result.near.write(out_dir, conv)
+    if any(fr.near is not None for fr in result.frequencies):
+        written += _write_near_fields(result, out_dir, conv)
     if scene.plots:
         written += _write_plots(result, out_dir)
     summary = summary_dict(result, conv, written + ["summary.json"])
@@ -270,6 +270,78 @@ def _write_boundary_vtk(result: Any, out_dir: Path, conv: str) -> list[str]:
             names.append(name)
     write_sweep_pvd(out_dir / "boundary.pvd", runs)
     return names + ["boundary.pvd", "boundary_steps.csv"]
+
+
+def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
+    """nearfield.csv, probes.csv, one grid .vtu per (frequency, incident wave), nearfield.pvd, field maps."""
+    from .plots import plot_field_map
+    from .vtk import write_grid_vtu, write_sweep_pvd
+
+    written: list[str] = []
+    grid_rows: dict[str, list[Any]] = {}
+    probe_rows: dict[str, list[Any]] = {}
+    runs = []
+    outlines = [b.body.outer.sample(64) for b in result.scene.bodies]
+    for nf, fr in enumerate(result.frequencies):
+        near = fr.near
+        if near is None:
+            continue
+        for slot, m in enumerate(near["columns"]):
+            col = fr.columns[m]
+            for key, rows, pts in (("grid", grid_rows, None), ("probes", probe_rows, near.get("probe_points"))):
+                if key not in near:
+                    continue
+                data = near[key]
+                if key == "grid":
+                    xx, yy = np.meshgrid(near["x"], near["y"])
+                    pts = np.column_stack([xx.ravel(), yy.ravel()])
+                    inside = data["inside"].ravel()
+                    values = {n: data[n][..., slot].ravel() for n in ("total", "scattered", "incident")}
+                else:
+                    inside = data["inside"]
+                    values = {n: data[n][:, slot] for n in ("total", "scattered", "incident")}
+                block: dict[str, Any] = {
+                    "frequency_hz": np.full(len(pts), fr.frequency_hz),
+                    "from_deg": np.full(len(pts), col["from_deg"]),
+                    "incident": np.full(len(pts), col["incident"]),
+                    "x_m": pts[:, 0],
+                    "y_m": pts[:, 1],
+                    "inside": inside.astype(bool),
+                }
+                for name, v in values.items():
+                    c = _conv(v, conv)
+                    block[f"{name}_re"] = c.real
+                    block[f"{name}_im"] = c.imag
+                for key2, val in block.items():
+                    rows.setdefault(key2, []).append(val)
+            if "grid" in near:
+                data = near["grid"]
+                name = f"nearfield_f{nf:03d}_i{m:03d}.vtu"
+                write_grid_vtu(
+                    out_dir / name, near["x"], near["y"],
+                    {n: data[n][..., slot] for n in ("total", "scattered", "incident")},
+                    inside_mask=data["inside"], convention=conv,
+                    metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": col["from_deg"]},
+                )
+                written.append(name)
+                runs.append((fr.frequency_hz, col["from_deg"] if math.isfinite(col["from_deg"]) else float(m), name))
+                if result.scene.plots and nf < 4 and slot < 3:
+                    png = f"nearfield_f{nf:03d}_i{m:03d}.png"
+                    what = f"from {col['from_deg']:g} deg" if col["kind"] == "plane" else col["incident"]
+                    plot_field_map(
+                        out_dir / png, near["x"], near["y"], data["total"][..., slot], outlines,
+                        quantity="abs", title=f"|total field|, {fr.frequency_hz:.4g} Hz, {what}",
+                    )
+                    written.append(png)
+    header = f"sectionwave near field; time convention {conv}; NaN where inside=1 (inside an impenetrable body)"
+    if grid_rows:
+        write_csv(out_dir / "nearfield.csv", {k: np.concatenate(v) for k, v in grid_rows.items()}, header_comment=header)
+        write_sweep_pvd(out_dir / "nearfield.pvd", runs)
+        written += ["nearfield.csv", "nearfield.pvd", "nearfield_steps.csv"]
+    if probe_rows:
+        write_csv(out_dir / "probes.csv", {k: np.concatenate(v) for k, v in probe_rows.items()}, header_comment=header)
+        written.append("probes.csv")
+    return written
 
 
 def _write_plots(result: Any, out_dir: Path) -> list[str]:

@@ -1,0 +1,21 @@
+"""Run every benchmark in turn (quick settings); each prints its own ratios."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+RUNS = [
+    ["bench_solver.py", "--quick"],
+    ["bench_nearfield.py"],
+    ["bench_import.py"],
+]
+
+if __name__ == "__main__":
+    code = 0
+    for args in RUNS:
+        print(f"== {' '.join(args)}", flush=True)
+        code |= subprocess.call([sys.executable, str(HERE / args[0]), *args[1:]])
+    sys.exit(code)
