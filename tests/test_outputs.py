@@ -11,9 +11,9 @@ import xml.etree.ElementTree as ET
 import meshio
 import numpy as np
 import pytest
-
 from sectionwave.engine import parse_case, solve_scene, write_run
 from sectionwave.engine.export import read_csv
+
 from tests.reference import C0
 
 RADIUS = 0.1

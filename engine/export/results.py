@@ -300,6 +300,7 @@ def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
                 else:
                     inside = data["inside"]
                     values = {n: data[n][:, slot] for n in ("total", "scattered", "incident")}
+                assert pts is not None
                 block: dict[str, Any] = {
                     "frequency_hz": np.full(len(pts), fr.frequency_hz),
                     "from_deg": np.full(len(pts), col["from_deg"]),
