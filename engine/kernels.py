@@ -35,6 +35,7 @@ from numpy.typing import NDArray
 __all__ = [
     "EULER_GAMMA",
     "bessel_j0j1",
+    "bessel_pointers",
     "green",
     "kernel_matrices",
     "log_coefficients",
@@ -47,13 +48,12 @@ EULER_GAMMA = 0.57721566490153286060651209
 
 
 @lru_cache(maxsize=1)
-def _compiled() -> Any:
-    """Compile the real-argument kernel loops once per process (never cached to disk).
+def bessel_pointers() -> tuple[Any, Any, Any, Any]:
+    """Ctypes handles of scipy's compiled J0, Y0, J1, Y1 (real argument), callable from numba.
 
-    The addresses of scipy's special functions change between processes,
-    so ``cache=True`` would bake in stale pointers.
+    scipy.special.cython_special exports them as PyCapsules whose
+    signature is ``double (double, int skip_dispatch)``.
     """
-    import numba
     import scipy.special.cython_special as cs
 
     get_ptr = ctypes.pythonapi.PyCapsule_GetPointer
@@ -68,7 +68,19 @@ def _compiled() -> Any:
         cap = cs.__pyx_capi__[name]
         return proto(get_ptr(cap, get_name(cap)))
 
-    c_j0, c_y0, c_j1, c_y1 = fn("j0"), fn("y0"), fn("j1"), fn("y1")
+    return fn("j0"), fn("y0"), fn("j1"), fn("y1")
+
+
+@lru_cache(maxsize=1)
+def _compiled() -> Any:
+    """Compile the real-argument kernel loops once per process (never cached to disk).
+
+    The addresses of scipy's special functions change between processes,
+    so ``cache=True`` would bake in stale pointers.
+    """
+    import numba
+
+    c_j0, c_y0, c_j1, c_y1 = bessel_pointers()
 
     @numba.njit(parallel=True, fastmath=False)
     def matrices(tx, ty, tnx, tny, sx, sy, snx, sny, k, want_s, want_d, want_dp, want_dt):

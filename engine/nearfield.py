@@ -36,7 +36,6 @@ inside
 
 from __future__ import annotations
 
-import ctypes
 import math
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -48,7 +47,7 @@ import scipy.special as sp
 from numpy.polynomial import chebyshev
 from numpy.typing import ArrayLike, NDArray
 
-from .kernels import kernel_matrices
+from .kernels import bessel_pointers, kernel_matrices
 from .mesh import PanelMesh
 from .operators import near_corrections, near_pairs
 from .quadrature import _arg_change, gauss_legendre, interpolation_matrix, near_weights
@@ -138,21 +137,8 @@ def _horner_sources() -> str:
 def _compiled() -> Any:
     """Compile the far-field loop once per process (scipy's Bessel pointers change per process)."""
     import numba
-    import scipy.special.cython_special as cs
 
-    get_ptr = ctypes.pythonapi.PyCapsule_GetPointer
-    get_ptr.restype = ctypes.c_void_p
-    get_ptr.argtypes = [ctypes.py_object, ctypes.c_char_p]
-    get_name = ctypes.pythonapi.PyCapsule_GetName
-    get_name.restype = ctypes.c_char_p
-    get_name.argtypes = [ctypes.py_object]
-    proto = ctypes.CFUNCTYPE(ctypes.c_double, ctypes.c_double, ctypes.c_int)
-
-    def fn(name: str) -> Any:
-        cap = cs.__pyx_capi__[name]
-        return proto(get_ptr(cap, get_name(cap)))
-
-    c_j0, c_y0, c_j1, c_y1 = fn("j0"), fn("y0"), fn("j1"), fn("y1")
+    c_j0, c_y0, c_j1, c_y1 = bessel_pointers()
     split = HANKEL_SPLIT
     # Cody-Waite pieces of pi/2 (the first two have trailing zero bits).
     pio2_1 = 1.57079632673412561417e00
