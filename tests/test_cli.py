@@ -88,3 +88,15 @@ def test_subprocess_run_from_stdin(tmp_path):
     assert (tmp_path / "r" / "summary.json").exists()
     proc = subprocess.run([sys.executable, "-m", "sectionwave.engine.cli", "--version"], capture_output=True)
     assert proc.returncode == 0 and b"sectionwave" in proc.stdout
+
+
+def test_demo_case_runs(tmp_path):
+    # The sample `make demo` runs first: three bodies (PEC, PEC, impedance), 73 incidences,
+    # a near-field map; it must run cleanly and meet its own tolerance.
+    case = Path(__file__).resolve().parents[1] / "samples" / "signal_mast.toml"
+    out = tmp_path / "demo"
+    assert main(["run", str(case), "--out", str(out), "--quiet"]) == 0
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["estimated_error_max"] <= 1e-8
+    assert summary["frequencies"][0]["optical_theorem_residual_max"] < 1e-8
+    assert (out / "nearfield.csv").exists() and (out / "echo_width_polar.png").exists()
