@@ -62,7 +62,7 @@ def _run(args: argparse.Namespace) -> int:
         out = Path("sectionwave-results")
     else:
         out = Path(args.case).with_name(Path(args.case).stem + "-results")
-    from .export.atomic import prepare_output_dir  # noqa: F401  (fail before solving)
+    # Refuse before solving, not after: results are never silently replaced.
     if out.exists() and any(out.iterdir()) and not args.force:
         raise _BadInput(f"{out}: results folder exists and is not empty; pass --force to replace it or choose --out")
     show = not args.quiet and sys.stderr.isatty()
@@ -116,7 +116,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return _inspect(args)
     except (_BadInput, SectionwaveError) as exc:
         print(f"sectionwave: error: {exc}", file=sys.stderr)
-        return EXIT_BAD_INPUT if not isinstance(exc, MemoryError) else EXIT_BAD_INPUT
+        return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         print("sectionwave: interrupted; nothing was written", file=sys.stderr)
         return 130

@@ -21,7 +21,7 @@ from __future__ import annotations
 import fnmatch
 import math
 from collections import Counter
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -38,6 +38,7 @@ __all__ = [
     "check_layer_patterns",
     "normalise_layers",
     "select_layer",
+    "select_pieces",
     "units_to_metres",
 ]
 
@@ -273,3 +274,53 @@ def check_layer_patterns(
                 f"{where}: no layer matches {p!r}; the drawing has layers "
                 f"{', '.join(repr(n) for n in names) or '(none)'}"
             )
+
+
+def select_pieces(
+    found: Iterable[tuple[Piece, str]],
+    layers: str | Sequence[str] | None,
+    layer_info: dict[str, LayerInfo],
+    skipped: Counter[str],
+    where: str,
+) -> list[Piece]:
+    """Keep the pieces on the selected layers and count the others as skipped.
+
+    Parameters
+    ----------
+    found
+        Every piece read, in file order, with the kind of entity it came
+        from (``"ARC"``, ``"line"``...) for the count of skipped pieces.
+    layers
+        The importer's ``layers`` option: layer names or globs, or ``None``
+        for every visible layer.
+    layer_info
+        Layers the file declares, by name; every layer a piece sits on is
+        added to it (with the default state) when missing.
+    skipped
+        Counts of what was not read; each piece left out adds one to
+        ``"<kind> on unselected layer"``.
+    where
+        Text naming the file, for the error message.
+
+    Returns
+    -------
+    list of Piece
+        The pieces on selected layers, in the order of ``found``.
+
+    Raises
+    ------
+    DrawingError
+        If a requested layer pattern matches no layer of the file.
+    """
+    candidates = list(found)
+    for piece, _ in candidates:
+        layer_info.setdefault(piece.layer, LayerInfo(piece.layer))
+    patterns = normalise_layers(layers)
+    check_layer_patterns(patterns, list(layer_info), where)
+    selected = []
+    for piece, kind in candidates:
+        if select_layer(piece.layer, patterns, layer_info.get(piece.layer)):
+            selected.append(piece)
+        else:
+            skipped[f"{kind} on unselected layer"] += 1
+    return selected

@@ -24,22 +24,14 @@ import re
 from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from .curves import BSpline, EllipticalArc, Line, Segment
-from .drawing import (
-    Drawing,
-    LayerInfo,
-    Piece,
-    check_layer_patterns,
-    normalise_layers,
-    select_layer,
-    units_to_metres,
-)
+from .drawing import Drawing, LayerInfo, Piece, select_pieces, units_to_metres
 from .errors import DrawingError
 
 __all__ = [
@@ -580,7 +572,6 @@ def read_dxf(
     p = Path(path)
     notes: list[str] = []
     doc = _load(p, notes)
-    patterns = normalise_layers(layers)
 
     layer_info: dict[str, LayerInfo] = {}
     for layer in doc.layers:
@@ -592,16 +583,10 @@ def read_dxf(
     sink = _Sink()
     for entity in doc.modelspace():
         reader.visit(entity, sink)
-    for raw in sink.raws:
-        layer_info.setdefault(raw.layer, LayerInfo(raw.layer))
-    check_layer_patterns(patterns, list(layer_info), str(p))
-
-    selected = []
-    for raw in sink.raws:
-        if select_layer(raw.layer, patterns, layer_info.get(raw.layer)):
-            selected.append(raw)
-        else:
-            sink.skipped[f"{raw.dxftype} on unselected layer"] += 1
+    found = [
+        (Piece(raw.segment, raw.layer, raw.handle, raw.source), raw.dxftype) for raw in sink.raws
+    ]
+    selected = select_pieces(found, layers, layer_info, sink.skipped, str(p))
 
     if not selected:
         what = ", ".join(f"{n} {k}" for k, n in sorted(sink.skipped.items())) or "nothing"
@@ -625,9 +610,7 @@ def read_dxf(
         )
 
     m = scale * np.eye(2)
-    pieces = [
-        Piece(raw.segment.transformed(m), raw.layer, raw.handle, raw.source) for raw in selected
-    ]
+    pieces = [replace(pc, segment=pc.segment.transformed(m)) for pc in selected]
     counts = Counter({k: v for k, v in sink.counts.items() if v})
     logger.debug("%s: %d pieces from %s", p, len(pieces), dict(counts))
     return Drawing(

@@ -34,16 +34,7 @@ from xml.etree.ElementTree import Element, ParseError
 import numpy as np
 
 from .curves import Bezier, EllipticalArc, Line, Segment
-from .drawing import (
-    UNIT_SCALES_M,
-    Drawing,
-    LayerInfo,
-    Piece,
-    check_layer_patterns,
-    normalise_layers,
-    select_layer,
-    units_to_metres,
-)
+from .drawing import UNIT_SCALES_M, Drawing, LayerInfo, Piece, select_pieces, units_to_metres
 from .errors import DrawingError
 
 __all__ = [
@@ -69,7 +60,7 @@ _INKSCAPE = "{http://www.inkscape.org/namespaces/inkscape}"
 
 #: User units (px) per unit of a length written in an attribute.
 _PX_PER_UNIT = {u: UNIT_SCALES_M[u] / UNIT_SCALES_M["px"] for u in ("mm", "cm", "in", "pt", "pc")}
-_PX_PER_UNIT.update({"px": 1.0, "": 1.0, "m": UNIT_SCALES_M["m"] / UNIT_SCALES_M["px"]})
+_PX_PER_UNIT.update({"px": 1.0, "m": UNIT_SCALES_M["m"] / UNIT_SCALES_M["px"]})
 
 _NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
 _NUMBER_RE = re.compile(_NUMBER)
@@ -174,30 +165,36 @@ def parse_transform(text: str | None, *, where: str = "") -> Matrix:
     return m
 
 
-def _length(value: str | None, default: float, where: str, attr: str) -> float:
-    """Read a length attribute in user units (px), converting units in the value."""
+def _scaled_length(
+    value: str | None,
+    default: float,
+    where: str,
+    attr: str,
+    per_unit: dict[str, float],
+    refusal_note: str = "",
+) -> float:
+    """Read a length with an optional unit (none: px) and scale it by ``per_unit``."""
     if value is None or not value.strip():
         return default
     mt = _LENGTH_RE.match(value)
     if mt is None or mt.group(2) == "%":
         raise DrawingError(
             f"{where}: cannot read {attr}={value!r}; give a number, optionally with a "
-            f"unit px, mm, cm, in, pt or pc (percentages are not supported)"
+            f"unit px, mm, cm, in, pt or pc{refusal_note}"
         )
-    return float(mt.group(1)) * _PX_PER_UNIT[mt.group(2) or ""]
+    return float(mt.group(1)) * per_unit[mt.group(2) or "px"]
+
+
+def _length(value: str | None, default: float, where: str, attr: str) -> float:
+    """Read a length attribute in user units (px), converting units in the value."""
+    return _scaled_length(
+        value, default, where, attr, _PX_PER_UNIT, " (percentages are not supported)"
+    )
 
 
 def _length_m(value: str | None, default: float, where: str, attr: str) -> float:
     """Read a width or height of the outermost ``<svg>`` in metres (no unit: px)."""
-    if value is None or not value.strip():
-        return default
-    mt = _LENGTH_RE.match(value)
-    if mt is None or mt.group(2) == "%":
-        raise DrawingError(
-            f"{where}: cannot read {attr}={value!r}; give a number, optionally with a "
-            f"unit px, mm, cm, in, pt or pc"
-        )
-    return float(mt.group(1)) * UNIT_SCALES_M[mt.group(2) or "px"]
+    return _scaled_length(value, default, where, attr, UNIT_SCALES_M)
 
 
 def _style(el: Element) -> dict[str, str]:
@@ -809,17 +806,9 @@ def read_svg(
     for child in root:
         walker.walk(child, world, "0", False, 1, (), "")
     layer_info = dict(walker.layers)
-    for _, layer, _, _ in walker.pieces:
-        layer_info.setdefault(layer, LayerInfo(layer))
-    patterns = normalise_layers(layers)
-    check_layer_patterns(patterns, list(layer_info), str(p))
-    pieces = []
     skipped = walker.skipped
-    for seg, layer, ident, src in walker.pieces:
-        if select_layer(layer, patterns, layer_info.get(layer)):
-            pieces.append(Piece(seg, layer, ident, src))
-        else:
-            skipped[f"{seg.kind} on unselected layer"] += 1
+    found = [(Piece(seg, layer, ident, src), seg.kind) for seg, layer, ident, src in walker.pieces]
+    pieces = select_pieces(found, layers, layer_info, skipped, str(p))
     if not pieces:
         what = ", ".join(f"{n} {k}" for k, n in sorted(skipped.items())) or "nothing"
         raise DrawingError(

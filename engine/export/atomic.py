@@ -94,6 +94,23 @@ def _create_temp_file(target: Path) -> tuple[Path, int]:
 
 
 @contextlib.contextmanager
+def _replace_on_success(temp: Path, target: Path) -> Iterator[None]:
+    """Rename ``temp`` onto ``target`` when the block succeeds, else remove it.
+
+    The block writes and flushes ``temp``; on any exception raised inside
+    it, ``KeyboardInterrupt`` included, ``temp`` is removed, the exception
+    propagates and ``target`` is untouched.
+    """
+    try:
+        yield
+        os.replace(temp, target)
+    except BaseException:
+        _remove_quietly(temp)
+        raise
+    _fsync_dir(target.parent)
+
+
+@contextlib.contextmanager
 def atomic_path(path: str | os.PathLike[str]) -> Iterator[Path]:
     """Yield a temporary path to write to; move it onto ``path`` on success.
 
@@ -124,17 +141,12 @@ def atomic_path(path: str | os.PathLike[str]) -> Iterator[Path]:
     target = Path(path)
     temp, fd = _create_temp_file(target)
     os.close(fd)
-    try:
+    with _replace_on_success(temp, target):
         yield temp
         # Flush what the writer left in the file before the rename, so the
         # destination never names a file whose data is still in a cache.
         with open(temp, "rb+") as handle:
             os.fsync(handle.fileno())
-        os.replace(temp, target)
-    except BaseException:
-        _remove_quietly(temp)
-        raise
-    _fsync_dir(target.parent)
 
 
 @overload
@@ -190,7 +202,7 @@ def atomic_write(
 @contextlib.contextmanager
 def _atomic_write(path: Path, mode: str, encoding: str) -> Iterator[IO[str] | IO[bytes]]:
     temp, fd = _create_temp_file(path)
-    try:
+    with _replace_on_success(temp, path):
         handle: IO[str] | IO[bytes]
         if mode == "wb":
             handle = os.fdopen(fd, "wb")
@@ -200,11 +212,6 @@ def _atomic_write(path: Path, mode: str, encoding: str) -> Iterator[IO[str] | IO
             yield handle
             handle.flush()
             os.fsync(handle.fileno())
-        os.replace(temp, path)
-    except BaseException:
-        _remove_quietly(temp)
-        raise
-    _fsync_dir(path.parent)
 
 
 def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str = "utf-8") -> Path:

@@ -109,9 +109,52 @@ def _vector(path: str | os.PathLike[str], name: str, raw: ArrayLike) -> NDArray[
     return values
 
 
-def _legend(axes: Axes, n: int) -> None:
-    if n > 1:
+def _curve_inputs(
+    path: str | os.PathLike[str], name: str, x: ArrayLike, curves: Mapping[str, ArrayLike]
+) -> tuple[str, NDArray[np.float64], dict[str, NDArray[np.float64]]]:
+    """File format, abscissa and curves of a curve plot, each checked."""
+    file_format = _format_for(path)
+    abscissa = _vector(path, name, x)
+    return file_format, abscissa, _curves(path, abscissa, curves)
+
+
+def _draw_curves(
+    axes: Axes, x: NDArray[np.float64], curves: Mapping[str, NDArray[np.float64]]
+) -> None:
+    for index, (label, values) in enumerate(curves.items()):
+        axes.plot(x, values, label=label, linewidth=1.4, **_style(index, x.size))
+
+
+def _linear_axes(
+    x: NDArray[np.float64],
+    curves: Mapping[str, NDArray[np.float64]],
+    xlabel: str,
+    unit_label: str,
+) -> tuple[Figure, Axes]:
+    """Figure with echo-width ``curves`` drawn against ``x`` on gridded linear axes."""
+    figure = _new_figure((7.0, 4.2))
+    axes = figure.add_subplot()
+    _draw_curves(axes, x, curves)
+    axes.set_xlabel(xlabel)
+    axes.set_ylabel(f"echo width ({unit_label})")
+    axes.grid(True, color="0.85")
+    return figure, axes
+
+
+def _save_curves(
+    figure: Figure,
+    axes: Axes,
+    path: str | os.PathLike[str],
+    file_format: str,
+    title: str | None,
+    n_curves: int,
+) -> Path:
+    """Add the title and, for several curves, the legend; then save the figure."""
+    if title:
+        axes.set_title(title)
+    if n_curves > 1:
         axes.legend(fontsize="small", framealpha=0.9)
+    return _save(figure, path, file_format)
 
 
 def plot_field_map(
@@ -255,31 +298,20 @@ def plot_echo_width_polar(
     pathlib.Path
         The destination.
     """
-    file_format = _format_for(path)
-    angles = _vector(path, "angles_deg", angles_deg)
-    curves = _curves(path, angles, echo_width_db)
+    file_format, angles, curves = _curve_inputs(path, "angles_deg", angles_deg, echo_width_db)
     finite = np.concatenate([c[np.isfinite(c)] for c in curves.values()])
     top = float(np.ceil(finite.max() / 5.0) * 5.0) if finite.size else 0.0
     bottom = top - db_range
     figure = _new_figure((6.0, 6.0))
     axes = cast("PolarAxes", figure.add_subplot(projection="polar"))
-    for index, (label, values) in enumerate(curves.items()):
-        axes.plot(
-            np.radians(angles),
-            np.clip(values, bottom, None),
-            label=label,
-            linewidth=1.4,
-            **_style(index, angles.size),
-        )
+    clipped = {label: np.clip(values, bottom, None) for label, values in curves.items()}
+    _draw_curves(axes, np.radians(angles), clipped)
     axes.set_ylim(bottom, top)
     axes.set_theta_zero_location("E")
     axes.set_theta_direction(1)
     axes.set_rlabel_position(112.5)
     axes.set_xlabel(f"observation angle (deg); radius: echo width ({unit_label})")
-    if title:
-        axes.set_title(title)
-    _legend(axes, len(curves))
-    return _save(figure, path, file_format)
+    return _save_curves(figure, axes, path, file_format, title, len(curves))
 
 
 def plot_echo_width_cartesian(
@@ -310,24 +342,13 @@ def plot_echo_width_cartesian(
     pathlib.Path
         The destination.
     """
-    file_format = _format_for(path)
-    angles = _vector(path, "angles_deg", angles_deg)
-    curves = _curves(path, angles, echo_width_db)
-    figure = _new_figure((7.0, 4.2))
-    axes = figure.add_subplot()
-    for index, (label, values) in enumerate(curves.items()):
-        axes.plot(angles, values, label=label, linewidth=1.4, **_style(index, angles.size))
-    axes.set_xlabel("observation angle (deg)")
-    axes.set_ylabel(f"echo width ({unit_label})")
+    file_format, angles, curves = _curve_inputs(path, "angles_deg", angles_deg, echo_width_db)
+    figure, axes = _linear_axes(angles, curves, "observation angle (deg)", unit_label)
     axes.set_xlim(float(angles.min()), float(angles.max()))
     span = float(angles.max() - angles.min())
     if span >= 90.0:
         axes.set_xticks(np.arange(np.ceil(angles.min() / 45.0) * 45.0, angles.max() + 1e-9, 45.0))
-    axes.grid(True, color="0.85")
-    if title:
-        axes.set_title(title)
-    _legend(axes, len(curves))
-    return _save(figure, path, file_format)
+    return _save_curves(figure, axes, path, file_format, title, len(curves))
 
 
 def _frequency_scale(frequency_hz: NDArray[np.float64]) -> tuple[float, str]:
@@ -366,23 +387,12 @@ def plot_echo_width_vs_frequency(
     pathlib.Path
         The destination.
     """
-    file_format = _format_for(path)
-    frequency = _vector(path, "frequency_hz", frequency_hz)
-    curves = _curves(path, frequency, echo_width_db)
+    file_format, frequency, curves = _curve_inputs(
+        path, "frequency_hz", frequency_hz, echo_width_db
+    )
     factor, unit = _frequency_scale(frequency)
-    figure = _new_figure((7.0, 4.2))
-    axes = figure.add_subplot()
-    for index, (label, values) in enumerate(curves.items()):
-        axes.plot(
-            frequency / factor, values, label=label, linewidth=1.4, **_style(index, frequency.size)
-        )
-    axes.set_xlabel(f"frequency ({unit})")
-    axes.set_ylabel(f"echo width ({unit_label})")
-    axes.grid(True, color="0.85")
-    if title:
-        axes.set_title(title)
-    _legend(axes, len(curves))
-    return _save(figure, path, file_format)
+    figure, axes = _linear_axes(frequency / factor, curves, f"frequency ({unit})", unit_label)
+    return _save_curves(figure, axes, path, file_format, title, len(curves))
 
 
 def plot_mesh_preview(

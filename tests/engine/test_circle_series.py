@@ -60,3 +60,39 @@ def test_large_cylinder_backscatter_tends_to_geometric_optics():
     fr, k = _solve_circle("tm", 50.0, center=(0.0, 0.0), from_deg=0.0)
     sigma = 2 * np.pi * abs(fr.monostatic[0]) ** 2
     assert abs(sigma / math.pi - 1) < 0.05
+
+
+@pytest.mark.parametrize("boundary,kind", [("soft", "dirichlet"), ("hard", "neumann")])
+def test_acoustic_circle_matches_series(boundary, kind):
+    # Sound-soft and sound-hard cylinders obey the same series as TM and TE PEC
+    # (Bowman, Senior & Uslenghi, ch. 2, from memory), here in water.
+    ka, radius, c = 8.0, 0.5, 1500.0
+    k = ka / radius
+    doc = case("acoustic", k * c / (2 * math.pi),
+               [{"name": "c", "shape": {"kind": "circle", "radius_m": radius}, "boundary": boundary}])
+    doc["wave"]["sound_speed_m_s"] = c
+    fr = solve_scene(parse_case(doc)).frequencies[0]
+    ref = circle_far_field(ka, k, fr.angles_deg, 0.0, kind)
+    assert relative_error(fr.farfield[:, 0], ref) < 1e-8
+
+
+def test_line_source_near_pec_circle_matches_series():
+    # Line source at r_s outside a PEC (TM) circle at the origin. With the addition
+    # theorem H0(k|r - r_s|) = sum_n J_n(k r) H_n(k r_s) e^{jn(phi - phi_s)} (DLMF 10.23.7),
+    # u_scat = (j/4) sum_n (J_n(ka)/H_n(ka)) H_n(k r_s) H_n(k r) e^{jn(phi - phi_s)}, so
+    # F = (j/4) sqrt(2/(pi k)) e^{j pi/4} sum_n j^n (J_n/H_n) H_n(k r_s) e^{jn(phi - phi_s)}.
+    import scipy.special as sp
+
+    ka, radius = 4.0, 1.0
+    k = ka / radius
+    rs, phis = 2.5, np.deg2rad(40.0)
+    doc = case("tm", k * C0 / (2 * math.pi),
+               [{"name": "c", "shape": {"kind": "circle", "radius_m": radius}, "boundary": "pec"}])
+    doc["incident"] = [{"kind": "line", "position_m": [rs * math.cos(phis), rs * math.sin(phis)]}]
+    fr = solve_scene(parse_case(doc)).frequencies[0]
+    n = np.arange(-60, 61)
+    coef = (1j**n) * sp.jv(n, ka) / sp.hankel2(n, ka) * sp.hankel2(n, k * rs)
+    phi = np.deg2rad(fr.angles_deg)
+    ref = 0.25j * np.sqrt(2 / (np.pi * k)) * np.exp(0.25j * np.pi) * (np.exp(1j * np.outer(phi - phis, n)) @ coef)
+    assert relative_error(fr.farfield[:, 0], ref) < 1e-8
+    assert np.isnan(fr.monostatic[0])  # no backscatter direction for a line source
