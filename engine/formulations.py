@@ -28,6 +28,7 @@ combined equations
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
@@ -120,21 +121,51 @@ def _rows(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArr
 
 
 def system_matrix(ops: Operators, cond: SurfaceConditions) -> ComplexArray:
-    """The combined system ``A x = b`` for the unknown of every node."""
+    """The combined system ``A x = b`` for the unknown of every node.
+
+    ``A = c1 [(I/2 - D) P_u + S P_psi] + c2 [(I/2 + D') P_psi - T P_u]`` with
+    the row weights ``c1, c2`` and column maps ``P_u, P_psi``. It is built in
+    one compiled pass, in place of one of the operator matrices (which the
+    caller must not use afterwards).
+    """
     p_u, p_psi = _columns(cond, ops.k)
     c1, c2 = _rows(cond, ops.k)
     n = p_u.size
-    a = np.zeros((n, n), dtype=complex)
-    if np.any(p_u != 0):
-        assert ops.D is not None and ops.T is not None
-        a -= c1[:, None] * ops.D * p_u[None, :]
-        a -= c2[:, None] * ops.T * p_u[None, :]
-    if np.any(p_psi != 0):
-        assert ops.S is not None and ops.Dp is not None
-        a += c1[:, None] * ops.S * p_psi[None, :]
-        a += c2[:, None] * ops.Dp * p_psi[None, :]
-    a[np.diag_indices(n)] += 0.5 * (c1 * p_u + c2 * p_psi)
-    return a
+    mats = [ops.S, ops.D, ops.Dp, ops.T]
+    out = next(m for m in mats if m is not None)
+    empty = np.zeros((0, 0), dtype=complex)
+    _combine()(
+        out,
+        *(m if m is not None else empty for m in mats),
+        c1, c2, p_u, p_psi,
+    )
+    out[np.diag_indices(n)] += 0.5 * (c1 * p_u + c2 * p_psi)
+    return out
+
+
+@lru_cache(maxsize=1)
+def _combine():
+    import numba
+
+    @numba.njit(parallel=True)
+    def run(out, s_mat, d_mat, dp_mat, t_mat, c1, c2, p_u, p_psi):
+        n = out.shape[0]
+        has_s, has_d, has_dp, has_t = s_mat.size > 0, d_mat.size > 0, dp_mat.size > 0, t_mat.size > 0
+        for i in numba.prange(n):
+            for j in range(n):
+                acc1 = 0j
+                acc2 = 0j
+                if has_s:
+                    acc1 += s_mat[i, j] * p_psi[j]
+                if has_d:
+                    acc1 -= d_mat[i, j] * p_u[j]
+                if has_dp:
+                    acc2 += dp_mat[i, j] * p_psi[j]
+                if has_t:
+                    acc2 -= t_mat[i, j] * p_u[j]
+                out[i, j] = c1[i] * acc1 + c2[i] * acc2
+
+    return run
 
 
 def right_hand_sides(

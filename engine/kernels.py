@@ -30,13 +30,16 @@ from typing import Any
 
 import numpy as np
 import scipy.special as sp
+from numpy.polynomial import chebyshev
 from numpy.typing import NDArray
 
 __all__ = [
     "EULER_GAMMA",
+    "HANKEL_SPLIT",
     "bessel_j0j1",
     "bessel_pointers",
     "green",
+    "hankel_amplitude_functions",
     "kernel_matrices",
     "log_coefficients",
 ]
@@ -45,6 +48,85 @@ FloatArray = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
 
 EULER_GAMMA = 0.57721566490153286060651209
+
+#: ``k r`` above which the far loop uses the fitted Hankel amplitude.
+HANKEL_SPLIT = 6.0
+#: Degree of the Chebyshev fit of the amplitudes (error about 3e-14).
+_AMPLITUDE_DEGREE = 12
+
+
+def _amplitude(nu: int, x: NDArray[Any]) -> ComplexArray:
+    """``M_nu(x) = H_nu^(2)(x) / (sqrt(2 / (pi x)) exp(-j (x - nu pi / 2 - pi / 4)))``.
+
+    Large arguments use the expansion ``sum_k (-j)^k a_k(nu) / x^k`` with
+    ``a_k = prod_{m <= k} (4 nu^2 - (2m - 1)^2) / (k! 8^k)`` (DLMF 10.17.4),
+    where 30 terms are far below rounding; smaller ones divide scipy's
+    Hankel function by the phase.
+    """
+    x = np.asarray(x, dtype=float)
+    out = np.empty(x.shape, dtype=complex)
+    big = x > 300.0
+    xs = x[~big]
+    out[~big] = sp.hankel2(nu, xs) / (
+        np.sqrt(2.0 / (np.pi * xs)) * np.exp(-1j * (xs - nu * np.pi / 2 - np.pi / 4))
+    )
+    xb = x[big]
+    term = np.ones(xb.shape, dtype=complex)
+    total = term.copy()
+    mu = 4.0 * nu * nu
+    for kk in range(1, 30):
+        term = term * (mu - (2 * kk - 1) ** 2) / (kk * 8.0 * xb) * (-1j)
+        total += term
+    out[big] = total
+    return out
+
+
+@lru_cache(maxsize=1)
+def _amplitude_coefficients() -> FloatArray:
+    """Chebyshev coefficients in ``s = 2 HANKEL_SPLIT / x - 1``: rows Re M0, Im M0, Re M1, Im M1."""
+    n = _AMPLITUDE_DEGREE + 1
+    s = np.cos(np.pi * (np.arange(n) + 0.5) / n)
+    x = HANKEL_SPLIT / (0.5 * (s + 1.0))
+    rows = []
+    for nu in (0, 1):
+        m = _amplitude(nu, x)
+        rows.append(chebyshev.chebfit(s, m.real, _AMPLITUDE_DEGREE))
+        rows.append(chebyshev.chebfit(s, m.imag, _AMPLITUDE_DEGREE))
+    coef = np.ascontiguousarray(np.array(rows))
+    coef.setflags(write=False)
+    return coef
+
+
+def _horner_sources() -> str:
+    """Python source of the four amplitude polynomials in ``s`` with literal coefficients.
+
+    Literal constants let the compiler unroll and vectorise the far loop.
+    """
+    lines = []
+    for name, row in zip(("m0r", "m0i", "m1r", "m1i"), _amplitude_coefficients(), strict=True):
+        mono = chebyshev.cheb2poly(row)
+        expr = repr(float(mono[-1]))
+        for c in mono[-2::-1]:
+            expr = f"({float(c)!r} + s * {expr})"
+        lines.append(f"def eval_{name}(s):\n    return {expr}\n")
+    return "\n".join(lines)
+
+
+def hankel_amplitude_functions(flags: Any = True) -> tuple[Any, Any, Any, Any]:
+    """Compiled (inlined) ``Re M0, Im M0, Re M1, Im M1`` as functions of ``s = 2 HANKEL_SPLIT / x - 1``.
+
+    ``H_nu^(2)(x) = sqrt(2 / (pi x)) exp(-j (x - nu pi / 2 - pi / 4)) M_nu(x)`` for
+    ``x >= HANKEL_SPLIT``: one sine and cosine serve both orders, where scipy's
+    J0, Y0, J1, Y1 would compute four.
+    """
+    import numba
+
+    namespace: dict[str, Any] = {}
+    exec(_horner_sources(), namespace)  # trusted source built from literal coefficients
+    return tuple(  # type: ignore[return-value]
+        numba.njit(inline="always", fastmath=flags, error_model="numpy")(namespace[f"eval_{name}"])
+        for name in ("m0r", "m0i", "m1r", "m1i")
+    )
 
 
 @lru_cache(maxsize=1)
@@ -81,29 +163,60 @@ def _compiled() -> Any:
     import numba
 
     c_j0, c_y0, c_j1, c_y1 = bessel_pointers()
+    m0r_f, m0i_f, m1r_f, m1i_f = hankel_amplitude_functions()
+    split = HANKEL_SPLIT
+    quarter_pi = 0.25 * math.pi
+    two_over_pi = 2.0 / math.pi
+
+    @numba.njit(inline="always")
+    def bessels(kr):
+        # J0, Y0, J1, Y1 at kr > 0: scipy's Cephes below HANKEL_SPLIT, the
+        # Hankel amplitude fit with one sine and cosine above it.
+        if kr < split:
+            return c_j0(kr, 0), c_y0(kr, 0), c_j1(kr, 0), c_y1(kr, 0)
+        sv = 2.0 * split / kr - 1.0
+        m0r, m0i, m1r, m1i = m0r_f(sv), m0i_f(sv), m1r_f(sv), m1i_f(sv)
+        amp = math.sqrt(two_over_pi / kr)
+        c = math.cos(kr - quarter_pi)
+        sn = math.sin(kr - quarter_pi)
+        # H0 = amp M0 e^{-j(kr - pi/4)}, H1 = amp M1 j e^{-j(kr - pi/4)}; H = J - jY.
+        return (
+            amp * (m0r * c + m0i * sn),
+            -amp * (m0i * c - m0r * sn),
+            amp * (m1r * sn - m1i * c),
+            -amp * (m1r * c + m1i * sn),
+        )
 
     @numba.njit(parallel=True, fastmath=False)
-    def matrices(tx, ty, tnx, tny, sx, sy, snx, sny, k, want_s, want_d, want_dp, want_dt):
+    def matrices(tx, ty, tnx, tny, sx, sy, snx, sny, w, k, want_s, want_d, want_dp, want_dt):
         m, n = tx.size, sx.size
-        s_mat = np.zeros((m if want_s else 0, n), dtype=np.complex128)
-        d_mat = np.zeros((m if want_d else 0, n), dtype=np.complex128)
-        dp_mat = np.zeros((m if want_dp else 0, n), dtype=np.complex128)
-        dt_mat = np.zeros((m if want_dt else 0, n), dtype=np.complex128)
+        s_mat = np.empty((m if want_s else 0, n), dtype=np.complex128)
+        d_mat = np.empty((m if want_d else 0, n), dtype=np.complex128)
+        dp_mat = np.empty((m if want_dp else 0, n), dtype=np.complex128)
+        dt_mat = np.empty((m if want_dt else 0, n), dtype=np.complex128)
         for i in numba.prange(m):
             for j in range(n):
                 dx = tx[i] - sx[j]
                 dy = ty[i] - sy[j]
                 r = math.sqrt(dx * dx + dy * dy)
                 if r == 0.0:
+                    if want_s:
+                        s_mat[i, j] = 0.0
+                    if want_d:
+                        d_mat[i, j] = 0.0
+                    if want_dp:
+                        dp_mat[i, j] = 0.0
+                    if want_dt:
+                        dt_mat[i, j] = 0.0
                     continue
                 kr = k * r
+                j0, y0, j1, y1 = bessels(kr)
+                wj = w[j]
                 if want_s:
-                    s_mat[i, j] = complex(-0.25 * c_y0(kr, 0), -0.25 * c_j0(kr, 0))
+                    s_mat[i, j] = complex(-0.25 * y0 * wj, -0.25 * j0 * wj)
                 if want_d or want_dp or want_dt:
-                    j1 = c_j1(kr, 0)
-                    y1 = c_y1(kr, 0)
                     # (j k / 4) H1^(2) = (k/4) Y1 + j (k/4) J1
-                    g = complex(0.25 * k * y1, 0.25 * k * j1) / r
+                    g = complex(0.25 * k * y1, 0.25 * k * j1) * (wj / r)
                     if want_d:
                         d_mat[i, j] = -g * (dx * snx[j] + dy * sny[j])
                     if want_dp:
@@ -161,14 +274,17 @@ def kernel_matrices(
     want_d: bool = True,
     want_dp: bool = True,
     want_dt: bool = False,
+    weights: FloatArray | None = None,
 ) -> tuple[ComplexArray, ComplexArray, ComplexArray, ComplexArray]:
     """Point values of the S, D, D' and Dt kernels (zero where the points coincide).
 
     ``Dt`` is the derivative of ``G`` along the target's tangent,
     ``dG/dt_x`` with ``t_x`` the normal turned counter-clockwise.
     Returns four arrays of shape ``(m, n)`` (an empty ``(0, n)`` one for a
-    kernel not asked for).
+    kernel not asked for). With ``weights`` (one per source) each column
+    is multiplied by its weight, as a Nystrom matrix needs.
     """
+    w = np.ones(sources.shape[0]) if weights is None else np.ascontiguousarray(weights, dtype=float)
     tx, ty = (np.ascontiguousarray(targets[:, i]) for i in (0, 1))
     sx, sy = (np.ascontiguousarray(sources[:, i]) for i in (0, 1))
     tnx, tny = (np.ascontiguousarray(target_normals[:, i]) for i in (0, 1))
@@ -176,7 +292,7 @@ def kernel_matrices(
     if np.isreal(k) and float(np.real(k)) > 0:
         fn = _compiled()[0]
         return fn(
-            tx, ty, tnx, tny, sx, sy, snx, sny, float(np.real(k)), want_s, want_d, want_dp, want_dt
+            tx, ty, tnx, tny, sx, sy, snx, sny, w, float(np.real(k)), want_s, want_d, want_dp, want_dt
         )
     dx = tx[:, None] - sx[None, :]
     dy = ty[:, None] - sy[None, :]
@@ -195,6 +311,10 @@ def kernel_matrices(
             dp_mat = g * (dx * tnx[:, None] + dy * tny[:, None])
         if want_dt:
             dt_mat = g * (-dx * tny[:, None] + dy * tnx[:, None])
+    if weights is not None:
+        for mat in (s_mat, d_mat, dp_mat, dt_mat):
+            if mat.shape[0]:
+                mat *= w[None, :]
     return s_mat, d_mat, dp_mat, dt_mat
 
 

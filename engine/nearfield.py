@@ -43,17 +43,14 @@ from functools import lru_cache
 from typing import Any
 
 import numpy as np
-import scipy.special as sp
-from numpy.polynomial import chebyshev
 from numpy.typing import ArrayLike, NDArray
 
-from .kernels import bessel_pointers, kernel_matrices
+from .kernels import HANKEL_SPLIT, bessel_pointers, hankel_amplitude_functions, kernel_matrices
 from .mesh import PanelMesh
 from .operators import near_corrections, near_pairs
 from .quadrature import _arg_change, gauss_legendre, interpolation_matrix, near_weights
 
 __all__ = [
-    "HANKEL_SPLIT",
     "UPSAMPLE_RATIO",
     "field_at_points",
     "field_on_grid",
@@ -65,72 +62,11 @@ FloatArray = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
 IncidentFn = Callable[[FloatArray], ComplexArray]
 
-#: ``k r`` above which the far loop uses the fitted Hankel amplitude.
-HANKEL_SPLIT = 6.0
-#: Degree of the Chebyshev fit of the amplitudes (error about 3e-14).
-_AMPLITUDE_DEGREE = 12
 #: A target closer to a panel than this fraction of the panel's length is
 #: evaluated on upsampled children when ``upsample > 1``.
 UPSAMPLE_RATIO = 0.25
 #: Targets per chunk of the fallback (complex ``k``) far sum.
 _CHUNK = 2048
-
-
-def _amplitude(nu: int, x: FloatArray) -> ComplexArray:
-    """``M_nu(x) = H_nu^(2)(x) / (sqrt(2 / (pi x)) exp(-j (x - nu pi / 2 - pi / 4)))``.
-
-    Large arguments use the expansion ``sum_k (-j)^k a_k(nu) / x^k`` with
-    ``a_k = prod_{m <= k} (4 nu^2 - (2m - 1)^2) / (k! 8^k)`` (DLMF 10.17.4),
-    where 30 terms are far below rounding; smaller ones divide scipy's
-    Hankel function by the phase.
-    """
-    x = np.asarray(x, dtype=float)
-    out = np.empty(x.shape, dtype=complex)
-    big = x > 300.0
-    xs = x[~big]
-    out[~big] = sp.hankel2(nu, xs) / (
-        np.sqrt(2.0 / (np.pi * xs)) * np.exp(-1j * (xs - nu * np.pi / 2 - np.pi / 4))
-    )
-    xb = x[big]
-    term = np.ones(xb.shape, dtype=complex)
-    total = term.copy()
-    mu = 4.0 * nu * nu
-    for kk in range(1, 30):
-        term = term * (mu - (2 * kk - 1) ** 2) / (kk * 8.0 * xb) * (-1j)
-        total += term
-    out[big] = total
-    return out
-
-
-@lru_cache(maxsize=1)
-def _amplitude_coefficients() -> FloatArray:
-    """Chebyshev coefficients in ``s = 2 HANKEL_SPLIT / x - 1``: rows Re M0, Im M0, Re M1, Im M1."""
-    n = _AMPLITUDE_DEGREE + 1
-    s = np.cos(np.pi * (np.arange(n) + 0.5) / n)
-    x = HANKEL_SPLIT / (0.5 * (s + 1.0))
-    rows = []
-    for nu in (0, 1):
-        m = _amplitude(nu, x)
-        rows.append(chebyshev.chebfit(s, m.real, _AMPLITUDE_DEGREE))
-        rows.append(chebyshev.chebfit(s, m.imag, _AMPLITUDE_DEGREE))
-    coef = np.ascontiguousarray(np.array(rows))
-    coef.setflags(write=False)
-    return coef
-
-
-def _horner_sources() -> str:
-    """Python source of the four amplitude polynomials in ``s`` with literal coefficients.
-
-    Literal constants let the compiler unroll and vectorise the far loop.
-    """
-    lines = []
-    for name, row in zip(("m0r", "m0i", "m1r", "m1i"), _amplitude_coefficients(), strict=True):
-        mono = chebyshev.cheb2poly(row)
-        expr = repr(float(mono[-1]))
-        for c in mono[-2::-1]:
-            expr = f"({float(c)!r} + s * {expr})"
-        lines.append(f"def eval_{name}(s):\n    return {expr}\n")
-    return "\n".join(lines)
 
 
 @lru_cache(maxsize=1)
@@ -147,12 +83,7 @@ def _compiled() -> Any:
     two_over_pi = 2.0 / math.pi
     flags = {"contract", "arcp", "reassoc", "nsz"}
 
-    namespace: dict[str, Any] = {}
-    exec(_horner_sources(), namespace)  # trusted source built from literal coefficients
-    eval_m0r, eval_m0i, eval_m1r, eval_m1i = (
-        numba.njit(inline="always", fastmath=flags, error_model="numpy")(namespace[f"eval_{name}"])
-        for name in ("m0r", "m0i", "m1r", "m1i")
-    )
+    eval_m0r, eval_m0i, eval_m1r, eval_m1i = hankel_amplitude_functions(flags)
 
     @numba.njit(inline="always", fastmath=flags, error_model="numpy")
     def amplitudes(s):

@@ -105,11 +105,8 @@ def assemble_operators(
     nodes, normals, w = mesh.nodes, mesh.normals, mesh.weights
     mats = kernel_matrices(
         nodes, normals, nodes, normals, k,
-        want_s=need_s, want_d=need_d, want_dp=need_dp, want_dt=need_t,
+        want_s=need_s, want_d=need_d, want_dp=need_dp, want_dt=need_t, weights=w,
     )
-    for mat in mats:
-        if mat.shape[0]:
-            mat *= w[None, :]
     _self_panel_rule(mesh, k, mats)
     _near_panel_rule(mesh, k, mats)
     s_mat, d_mat, dp_mat, dt_mat = mats
