@@ -165,6 +165,10 @@ def _captured_ezdxf_log(notes: list[str]) -> Iterator[None]:
             )
 
 
+#: Files larger than this are first read by ezdxf's strict reader (see ``_load``).
+FAST_READ_BYTES = 4 << 20
+
+
 def _load(path: Path, notes: list[str]) -> Any:
     import ezdxf
     from ezdxf import recover
@@ -199,7 +203,20 @@ def _load(path: Path, notes: list[str]) -> Any:
                     )
                 notes.append("the file lacks the final '0 / EOF' marker after a complete "
                              "section: accepted")
-            doc, auditor = recover.readfile(path)
+            doc, auditor = None, None
+            if len(data) > FAST_READ_BYTES:
+                # The recovering reader rebuilds every tag and costs about three
+                # times the strict one on large drawings; a well-formed large file
+                # is read strictly and audited, anything the strict reader rejects
+                # goes through the recovering reader as before.
+                try:
+                    doc = ezdxf.readfile(path)
+                    auditor = doc.audit()
+                    notes.append("large file read with the strict reader and audited")
+                except DXFError:
+                    doc = None
+            if doc is None:
+                doc, auditor = recover.readfile(path)
     except DrawingError:
         raise
     except (DXFError, OSError, UnicodeDecodeError, ValueError, IndexError, KeyError) as exc:
