@@ -203,7 +203,8 @@ def _load(path: Path, notes: list[str]) -> Any:
                     )
                 notes.append("the file lacks the final '0 / EOF' marker after a complete "
                              "section: accepted")
-            doc, auditor = None, None
+            doc: Any = None
+            auditor: Any = None
             if len(data) > FAST_READ_BYTES:
                 # The recovering reader rebuilds every tag and costs about three
                 # times the strict one on large drawings; a well-formed large file
