@@ -179,6 +179,7 @@ def _load(path: Path, notes: list[str]) -> Any:
     with open(path, "rb") as fh:
         data = fh.read()
     head = data[:4096]
+    doc: Any
     try:
         with _captured_ezdxf_log(notes):
             if _is_binary_head(head):
@@ -203,7 +204,7 @@ def _load(path: Path, notes: list[str]) -> Any:
                     )
                 notes.append("the file lacks the final '0 / EOF' marker after a complete "
                              "section: accepted")
-            doc: Any = None
+            doc = None
             auditor: Any = None
             if len(data) > FAST_READ_BYTES:
                 # The recovering reader rebuilds every tag and costs about three
