@@ -187,9 +187,9 @@ class _Reader:
         if (
             not isinstance(value, list | tuple)
             or len(value) != 2
-            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
+            or not all(_is_finite_number(v) for v in value)
         ):
-            raise self.fail(key, f"must be a pair of numbers [x, y] in metres, got {value!r}")
+            raise self.fail(key, f"must be a pair of finite numbers [x, y] in metres, got {value!r}")
         return float(value[0]), float(value[1])
 
     def values(self, key: str, *, positive: bool = False) -> tuple[float, ...]:
@@ -198,16 +198,15 @@ class _Reader:
         if value is None:
             raise self.fail(key, "is required: a number, a list, or {start =, stop =, count =}")
         if isinstance(value, Mapping):
-            extra = set(value) - {"start", "stop", "count"}
-            if extra or set(value) != {"start", "stop", "count"}:
+            if set(value) != {"start", "stop", "count"}:
                 raise self.fail(key, f"a range needs exactly start, stop and count, got {sorted(value)}")
             count = value["count"]
             if isinstance(count, bool) or not isinstance(count, int) or count < 1:
                 raise self.fail(key, f"count must be a positive integer, got {count!r}")
             start, stop = value["start"], value["stop"]
             for v in (start, stop):
-                if isinstance(v, bool) or not isinstance(v, int | float):
-                    raise self.fail(key, f"start and stop must be numbers, got {v!r}")
+                if not _is_finite_number(v):
+                    raise self.fail(key, f"start and stop must be finite numbers, got {v!r}")
             out = tuple(float(v) for v in np.linspace(start, stop, count))
         elif isinstance(value, list):
             if not value:
@@ -232,6 +231,17 @@ class _Reader:
             )
 
 
+def _is_finite_number(v: Any) -> bool:
+    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+
+
+def _tables(r: _Reader, key: str, value: Any) -> list[Mapping[str, Any]]:
+    """An array of tables ([[key]]), each checked to be a table."""
+    if not isinstance(value, list) or not all(isinstance(v, Mapping) for v in value):
+        raise r.fail(key, f"must be an array of tables [[{key}]], got {value!r}")
+    return value
+
+
 def _rotation(deg: float) -> np.ndarray:
     a = math.radians(deg)
     return np.array([[math.cos(a), -math.sin(a)], [math.sin(a), math.cos(a)]])
@@ -248,7 +258,7 @@ def _inline_shape(r: _Reader) -> Body:
         if (
             not isinstance(axes, list)
             or len(axes) != 2
-            or not all(isinstance(a, int | float) and not isinstance(a, bool) and a > 0 for a in axes)
+            or not all(_is_finite_number(a) and a > 0 for a in axes)
         ):
             raise r.fail("semi_axes_m", f"must be two positive numbers [a, b] in metres, got {axes!r}")
         contour = Contour((EllipticalArc(center, rot @ np.diag(axes), 0.0, 2 * math.pi),))
@@ -264,9 +274,9 @@ def _inline_shape(r: _Reader) -> Body:
         if (
             not isinstance(pts, list)
             or len(pts) < 3
-            or not all(isinstance(p, list) and len(p) == 2 for p in pts)
+            or not all(isinstance(p, list) and len(p) == 2 and all(_is_finite_number(c) for c in p) for p in pts)
         ):
-            raise r.fail("points_m", "must be a list of at least 3 points [[x, y], ...] in metres")
+            raise r.fail("points_m", "must be a list of at least 3 points [[x, y], ...] of finite numbers in metres")
         arr = np.array(pts, dtype=float) @ rot.T + center
         contour = Contour(tuple(Line(arr[i], arr[(i + 1) % len(arr)]) for i in range(len(arr))))
         _check_simple_polygon(r, arr)
@@ -307,9 +317,9 @@ def _rounded_rectangle(w: float, h: float, rc: float) -> Contour:
 
 def _impedance(r: _Reader) -> complex:
     value = r.get("impedance")
-    if isinstance(value, int | float) and not isinstance(value, bool):
+    if _is_finite_number(value):
         z = complex(value)
-    elif isinstance(value, list) and len(value) == 2 and all(isinstance(v, int | float) for v in value):
+    elif isinstance(value, list) and len(value) == 2 and all(_is_finite_number(v) for v in value):
         z = complex(value[0], value[1])
     else:
         raise r.fail("impedance", f"must be a number or [re, im] (normalised to the medium's wave impedance), got {value!r}")
@@ -336,6 +346,8 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         raise top.fail("wave", "is required: [wave] with field and frequency_hz")
     field_kind = wave.text("field", choices=FIELDS)
     freqs = wave.values("frequency_hz", positive=True)
+    if len(set(freqs)) != len(freqs):
+        raise wave.fail("frequency_hz", f"repeats a frequency: {list(freqs)}")
     if field_kind == "acoustic":
         speed = wave.number("sound_speed_m_s", SOUND_SPEED_AIR_M_S, positive=True)
         density = wave.number("density_kg_m3", DENSITY_AIR_KG_M3, positive=True)
@@ -352,6 +364,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     raw_bodies = top.get("body")
     if not isinstance(raw_bodies, list) or not raw_bodies:
         raise top.fail("body", "is required: at least one [[body]] table")
+    raw_bodies = _tables(top, "body", raw_bodies)
     bodies: list[BodySpec] = []
     allowed = BOUNDARIES[field_kind]
     for i, raw in enumerate(raw_bodies):
@@ -380,23 +393,37 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         for n, body in enumerate(found):
             label = name if len(found) == 1 else f"{name}.{n + 1}"
             bodies.append(BodySpec(label, Body(body.outer, body.holes, label), boundary, imp, where))
+    body_names = [b.name for b in bodies]
+    if len(set(body_names)) != len(body_names):
+        raise top.fail("body", f"names must differ, got {body_names}")
     _check_disjoint(source, bodies)
 
     raw_inc = top.get("incident")
     if raw_inc is None:
         raw_inc = [{"kind": "plane", "from_deg": 0.0}]
-    if not isinstance(raw_inc, list):
-        raise top.fail("incident", "must be an array of tables [[incident]]")
+    raw_inc = _tables(top, "incident", raw_inc)
+    if not raw_inc:
+        raise top.fail("incident", "is empty: give at least one [[incident]] wave")
     incidents: list[IncidentSpec] = []
     for i, raw in enumerate(raw_inc):
         ir = _Reader(source, raw, f"incident.{i}")
         kind = ir.text("kind", "plane", choices=("plane", "line"))
         name = ir.text("name", f"incident{i + 1}")
         if kind == "plane":
-            incidents.append(IncidentSpec("plane", ir.values("from_deg"), None, name))
+            angles_in = ir.values("from_deg")
+            if len(set(angles_in)) != len(angles_in):
+                raise ir.fail("from_deg", f"repeats an angle: {list(angles_in)}")
+            incidents.append(IncidentSpec("plane", angles_in, None, name))
         else:
-            incidents.append(IncidentSpec("line", (), ir.point("position_m"), name))
+            pos = ir.point("position_m")
+            for b in bodies:
+                if bool(b.body.contains([pos])[0]):
+                    raise ir.fail("position_m", f"{list(pos)} m is inside body {b.name!r}; a line source must be outside every body")
+            incidents.append(IncidentSpec("line", (), pos, name))
         ir.finish()
+    names = [i.name for i in incidents]
+    if len(set(names)) != len(names):
+        raise top.fail("incident", f"names must differ, got {names}")
 
     ffr = _Reader(source, top.get("far_field") or {}, "far_field")
     if ffr.has("angles_deg"):
@@ -432,6 +459,14 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     near = None
     if top.has("near_field"):
         near = _near_field(_Reader(source, top.get("near_field"), "near_field"), base_dir)
+        if near.from_deg is not None:
+            plane = {a for i in incidents if i.kind == "plane" for a in i.from_deg}
+            missing = [a for a in near.from_deg if not any(abs(a - b) < 1e-9 for b in plane)]
+            if missing:
+                raise CaseError(
+                    f"{source}: [near_field.from_deg] {missing} matches no plane-wave incidence; "
+                    "use angles listed in [[incident]] from_deg"
+                )
     top.used.update({"body", "incident"})
     top.finish()
     return Scene(
@@ -470,7 +505,8 @@ def _near_field(r: _Reader, base_dir: Path | None) -> NearFieldSpec:
             ny = int(math.floor((yr[1] - yr[0]) / h + 1e-9)) + 1
         else:
             cnt = r.get("count")
-            if not (isinstance(cnt, list) and len(cnt) == 2 and all(isinstance(c, int) and c >= 1 for c in cnt)):
+            if not (isinstance(cnt, list) and len(cnt) == 2
+                    and all(isinstance(c, int) and not isinstance(c, bool) and c >= 1 for c in cnt)):
                 raise r.fail("count", f"must be [nx, ny] positive integers, got {cnt!r}")
             nx, ny = cnt
         if nx * ny > 25_000_000:

@@ -63,8 +63,15 @@ def _run(args: argparse.Namespace) -> int:
     else:
         out = Path(args.case).with_name(Path(args.case).stem + "-results")
     # Refuse before solving, not after: results are never silently replaced.
-    if out.exists() and any(out.iterdir()) and not args.force:
-        raise _BadInput(f"{out}: results folder exists and is not empty; pass --force to replace it or choose --out")
+    from .export.atomic import OUTPUT_MARKER
+
+    if out.exists() and not out.is_dir():
+        raise _BadInput(f"{out}: exists and is not a folder; choose another --out")
+    if out.exists() and any(out.iterdir()):
+        if not args.force:
+            raise _BadInput(f"{out}: results folder exists and is not empty; pass --force to replace it or choose --out")
+        if not (out / OUTPUT_MARKER).exists():
+            raise _BadInput(f"{out}: not a sectionwave results folder; --force only replaces earlier results")
     show = not args.quiet and sys.stderr.isatty()
     progress = (lambda msg: print(msg, file=sys.stderr)) if show else None
     with warnings.catch_warnings(record=True) as caught:

@@ -100,3 +100,25 @@ def test_demo_case_runs(tmp_path):
     assert summary["estimated_error_max"] <= 1e-8
     assert summary["frequencies"][0]["optical_theorem_residual_max"] < 1e-8
     assert (out / "nearfield.csv").exists() and (out / "echo_width_polar.png").exists()
+
+
+def test_case_validation_refuses_meaningless_input(tmp_path, capsys):
+    cases = {
+        'position_m = [0.0, 0.0]': SMALL.replace('kind = "plane"\nfrom_deg = [0, 90]', 'kind = "line"\nposition_m = [0.0, 0.0]'),
+        "repeats an angle": SMALL.replace("from_deg = [0, 90]", "from_deg = [0, 0]"),
+        "finite": SMALL.replace("radius_m = 0.2", "radius_m = 0.2, center_m = [inf, 0]"),
+        "incident": SMALL.replace('[[incident]]\nkind = "plane"\nfrom_deg = [0, 90]', "incident = []"),
+    }
+    for expect, text in cases.items():
+        assert main(["run", str(_write(tmp_path, text)), "--out", str(tmp_path / "o")]) == 2, expect
+        err = capsys.readouterr().err.strip()
+        assert len(err.splitlines()) == 1
+    assert not (tmp_path / "o").exists()
+
+
+def test_force_never_replaces_a_foreign_folder(tmp_path):
+    foreign = tmp_path / "mine"
+    foreign.mkdir()
+    (foreign / "thesis.txt").write_text("keep me")
+    assert main(["run", str(_write(tmp_path, SMALL)), "--out", str(foreign), "--force", "--quiet"]) == 2
+    assert (foreign / "thesis.txt").read_text() == "keep me"

@@ -266,7 +266,7 @@ def _write_boundary_vtk(result: Any, out_dir: Path, conv: str) -> list[str]:
                 fields, real_fields={"arc_weight_m": mesh.weights}, convention=conv,
                 metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": col["from_deg"]},
             )
-            runs.append((fr.frequency_hz, col["from_deg"] if math.isfinite(col["from_deg"]) else float(m), name))
+            runs.append((fr.frequency_hz, col["from_deg"], name))
             names.append(name)
     write_sweep_pvd(out_dir / "boundary.pvd", runs)
     return names + ["boundary.pvd", "boundary_steps.csv"]
@@ -325,7 +325,7 @@ def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
                     metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": col["from_deg"]},
                 )
                 written.append(name)
-                runs.append((fr.frequency_hz, col["from_deg"] if math.isfinite(col["from_deg"]) else float(m), name))
+                runs.append((fr.frequency_hz, col["from_deg"], name))
                 if result.scene.plots and nf < 4 and slot < 3:
                     png = f"nearfield_f{nf:03d}_i{m:03d}.png"
                     what = f"from {col['from_deg']:g} deg" if col["kind"] == "plane" else col["incident"]
