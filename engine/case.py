@@ -397,6 +397,11 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     if len(set(body_names)) != len(body_names):
         raise top.fail("body", f"names must differ, got {body_names}")
     _check_disjoint(source, bodies)
+    notes = [
+        f"body {b.name!r} has {len(b.body.holes)} hole(s): closed cavities of an impenetrable "
+        "body do not affect the exterior field and are not meshed"
+        for b in bodies if b.body.holes
+    ]
 
     raw_inc = top.get("incident")
     if raw_inc is None:
@@ -488,6 +493,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         near_field=near,
         source=source,
         drawing_audit=audit,
+        notes=notes,
     )
 
 

@@ -66,21 +66,6 @@ class SurfaceConditions:
     lam: ComplexArray
     panel_length: NDArray[np.float64] | None = None
 
-    @property
-    def has_dirichlet(self) -> bool:
-        """True if any node is Dirichlet."""
-        return bool(np.any(self.kind == DIRICHLET))
-
-    @property
-    def has_u_unknowns(self) -> bool:
-        """True if any node carries u as its unknown (Neumann or Robin)."""
-        return bool(np.any(self.kind != DIRICHLET))
-
-    @property
-    def has_robin(self) -> bool:
-        """True if any node is Robin with a non-zero factor."""
-        return bool(np.any((self.kind == ROBIN) & (self.lam != 0)))
-
 
 def coupling_constants(k: complex) -> tuple[complex, complex]:
     """``(alpha, beta)`` for the combined equations; both have non-zero imaginary parts.

@@ -30,7 +30,7 @@ from sectionwave.importers.errors import GeometryError
 
 from .quadrature import differentiation_matrix, gauss_legendre, legendre_analysis_matrix
 
-__all__ = ["BoundaryContour", "PanelMesh", "build_panels", "corner_levels_for"]
+__all__ = ["BoundaryContour", "PanelMesh", "build_panels", "corner_levels_for", "regrade"]
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -343,12 +343,17 @@ def build_panels(
         touching = set(corner_pan.tolist()) | set(prev[corner_pan].tolist())
         if not touching:
             break
-        mesh = _split_toward_corners(mesh, touching)
-    for _ in range(200):
-        marked = set(_ratio_violations(mesh))
+        mesh = mesh.split(sorted(touching))
+    return regrade(mesh)
+
+
+def regrade(mesh: PanelMesh, *, passes: int = 200) -> PanelMesh:
+    """Split panels until no panel is more than twice as long as a neighbour."""
+    for _ in range(passes):
+        marked = _ratio_violations(mesh)
         if not marked:
             break
-        mesh = mesh.split(sorted(marked))
+        mesh = mesh.split(marked)
     return mesh
 
 
@@ -426,8 +431,3 @@ def _gap_violations(mesh: PanelMesh) -> list[int]:
                 bad.append(i)
                 break
     return bad
-
-
-def _split_toward_corners(mesh: PanelMesh, touching: set[int]) -> PanelMesh:
-    """Halve each panel touching a corner (the half at the corner is refined again next time)."""
-    return mesh.split(sorted(touching))

@@ -38,7 +38,7 @@ from .formulations import (
     surface_traces,
     system_matrix,
 )
-from .mesh import BoundaryContour, PanelMesh, build_panels
+from .mesh import BoundaryContour, PanelMesh, build_panels, regrade
 from .operators import assemble_operators
 from .solve import check_memory, factorise
 
@@ -47,6 +47,10 @@ __all__ = [
     "FrequencyResult",
     "IllConditionedWarning",
     "RunResult",
+    "echo_width_table",
+    "incident_values",
+    "panel_wavelengths",
+    "physical_surface_quantities",
     "solve_scene",
 ]
 
@@ -138,7 +142,7 @@ def _conditions(scene: Scene, mesh: PanelMesh, k: float) -> SurfaceConditions:
             # body, exp(+j w t)): TM and sound: lam = j k / z; TE: lam = j k z.
             kind[sel] = ROBIN
             lam[sel] = 1j * k * z if scene.field == "te" else 1j * k / z
-        elif spec.boundary in ("hard",) or (spec.boundary == "pec" and scene.field == "te"):
+        elif spec.boundary == "hard" or (spec.boundary == "pec" and scene.field == "te"):
             kind[sel] = NEUMANN
         else:
             kind[sel] = DIRICHLET
@@ -243,13 +247,11 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
         previous_ff = ff
         refinements += 1
         log.info("refining %d of %d panels (estimate %.2e)", bad.size, mesh.n_panels, estimated)
-        mesh = _regrade(mesh.split(sorted(bad.tolist())))
+        mesh = regrade(mesh.split(sorted(bad.tolist())))
     t_post = time.perf_counter()
     mono = np.full(len(columns), np.nan + 0j)
     for i in plane_cols:
         mono[i] = far_field(mesh, k, u[:, [i]], psi[:, [i]], np.array([columns[i]["from_deg"]]))[0, 0]
-    if not plane_cols:
-        widths = {}
     timings["far_field_s"] = time.perf_counter() - t_post
     notes = []
     if estimated > scene.tolerance:
@@ -338,17 +340,6 @@ def panel_wavelengths(scene: Scene) -> float:
         return scene.max_panel_wavelengths
     has_impedance = any(b.boundary == "impedance" for b in scene.bodies)
     return 0.5 if has_impedance else 1.0
-
-
-def _regrade(mesh: PanelMesh) -> PanelMesh:
-    from .mesh import _ratio_violations
-
-    for _ in range(100):
-        bad = _ratio_violations(mesh)
-        if not bad:
-            return mesh
-        mesh = mesh.split(bad)
-    return mesh
 
 
 def physical_surface_quantities(scene: Scene, fr: FrequencyResult) -> dict[str, ComplexArray]:
