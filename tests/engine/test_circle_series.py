@@ -33,7 +33,7 @@ def test_pec_circle_matches_series(field, kind, ka):
     fr, k = _solve_circle(field, ka)
     ref = circle_far_field(ka, k, fr.angles_deg, 30.0, kind, center=(0.2, -0.1))
     err = relative_error(fr.farfield[:, 0], ref)
-    assert err < 1e-8, err  # tolerance of the issue: 1e-8 relative, complex far field
+    assert err < 1e-8, err  # required accuracy: 1e-8 relative, complex far field
     # the run's own estimate must not claim more accuracy than it has by far
     assert fr.estimated_error < 1e-6
 
