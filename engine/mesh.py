@@ -414,10 +414,18 @@ def _gap_violations(mesh: PanelMesh) -> list[int]:
         hits = tree.query_ball_point(own, r=length / GAP_RATIO)
         c = int(mesh.contour_of_panel[i])
         a, b, loop = start[i], start[i] + length, total[c]
-        for row, near in zip(own, hits):
+        own_normals = mesh.normals[i * p : (i + 1) * p]
+        for row, nrm, near in zip(own, own_normals, hits):
             if not near:
                 continue
             j = np.array(near)
+            # Only boundary across the surrounding medium makes a gap: the far
+            # face of a thin plate lies behind the surface, through the body,
+            # and the near-panel product rule already integrates it exactly.
+            ahead = (mesh.nodes[j] - row) @ nrm > 0.0
+            j = j[ahead]
+            if j.size == 0:
+                continue
             same = contour[j] == c
             euclid = np.hypot(*(mesh.nodes[j] - row).T)
             s_j = arc_node[j]

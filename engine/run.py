@@ -8,7 +8,7 @@ estimated error
     relative to the unknown's integral over the whole boundary, summed; once
     a refinement has happened, the smaller of that and the far-field change
     under the last refinement; never less than the optical-theorem residual.
-    Panels carrying half the estimate are halved and the system solved
+    The fewest panels carrying MARK_FRACTION of the estimate are halved and the system solved
     again, at most ``max_refinements`` times.
 """
 
@@ -59,6 +59,8 @@ ComplexArray = NDArray[np.complex128]
 
 #: Condition numbers above this are flagged (digits lost ~ log10(cond)).
 CONDITION_WARN = 1e10
+#: Doerfler marking: refine the fewest panels that carry this share of the estimate.
+MARK_FRACTION = 0.8
 
 
 class AccuracyWarning(SectionwaveWarning):
@@ -240,9 +242,9 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
             estimated = max(estimated, float(np.max(widths["optical_residual"])))
         if estimated <= scene.tolerance or refinements >= scene.max_refinements:
             break
-        # Doerfler marking: the fewest panels carrying half the estimate.
+        # Doerfler marking: the fewest panels carrying MARK_FRACTION of the estimate.
         order = np.argsort(est)[::-1]
-        count = int(np.searchsorted(np.cumsum(est[order]), 0.5 * tail_estimate)) + 1
+        count = int(np.searchsorted(np.cumsum(est[order]), MARK_FRACTION * tail_estimate)) + 1
         bad = order[:count]
         previous_ff = ff
         refinements += 1

@@ -40,3 +40,21 @@ def test_corner_bodies_identities_and_convergence(field, shape):
     # Tightening the tolerance changes the answer by no more than the looser tolerance.
     change = np.max(np.abs(fine.farfield - coarse.farfield)) / scale
     assert change < 1e-6, change
+
+
+@pytest.mark.parametrize("field", ["tm", "te"])
+def test_wide_thin_strip_broadside_tends_to_physical_optics(field):
+    # Physical optics: the broadside echo width of a wide flat PEC strip is
+    # k w^2 for both polarisations (Balanis, Advanced Engineering
+    # Electromagnetics, ch. 11, from memory); at w = 10 wavelengths the edge
+    # diffraction changes it by a few tenths of a percent. The plate is
+    # 0.02 wavelengths thick: its faces are close but meet through the body.
+    wavelength, width = 1.0, 10.0
+    k = 2 * math.pi / wavelength
+    shape = {"kind": "rectangle", "width_m": 0.02, "height_m": width}
+    doc = case(field, C0 / wavelength, [{"name": "strip", "shape": shape, "boundary": "pec"}],
+               from_deg=0.0, angles=[0.0], solver={"tolerance": 1e-6})
+    fr = solve_scene(parse_case(doc)).frequencies[0]
+    sigma = 2 * math.pi * abs(fr.monostatic[0]) ** 2
+    assert abs(sigma / (k * width**2) - 1) < 0.01
+    assert fr.mesh.n_nodes < 6000  # thin bodies must not be refined to their thickness
