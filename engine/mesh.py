@@ -212,7 +212,8 @@ def _corner_levels(mesh: PanelMesh, panel: int, prev: IntArray, cap: int, tolera
     if abs(nu - round(nu)) < 1e-3:
         return min(cap, 4)
     want = math.ceil(0.8 * math.log2(1.0 / tolerance) / nu)
-    return int(min(cap, MAX_CORNER_LEVELS, max(4, want)))
+    floor = 4 if tolerance < 1e-3 else 1
+    return int(min(cap, MAX_CORNER_LEVELS, max(floor, want)))
 
 
 def corner_levels_for(tolerance: float) -> int:
@@ -258,6 +259,7 @@ def build_panels(
     tolerance: float = 1e-8,
     max_panel_wavelengths: float = 1.0,
     corner_levels: int | None = None,
+    corner_tolerance: float | None = None,
 ) -> PanelMesh:
     """Mesh closed contours into panels sized for the wavelength and geometry.
 
@@ -274,6 +276,9 @@ def build_panels(
         Longest panel, in wavelengths.
     corner_levels
         Dyadic levels toward corners; default from ``corner_levels_for``.
+    corner_tolerance
+        Tolerance that sets the depth of corner refinement (default
+        ``tolerance``); a looser one trades accuracy for unknowns.
 
     Returns
     -------
@@ -286,7 +291,8 @@ def build_panels(
     """
     if not boundaries:
         raise GeometryError("nothing to mesh: the scene has no boundary")
-    levels = corner_levels_for(tolerance) if corner_levels is None else int(corner_levels)
+    corner_tol = tolerance if corner_tolerance is None else corner_tolerance
+    levels = corner_levels_for(corner_tol) if corner_levels is None else int(corner_levels)
     geo_tol = max(1e-14, 0.01 * tolerance)
     segments: list[Segment] = []
     contours: list[list[_Piece]] = []
@@ -336,7 +342,7 @@ def build_panels(
         prev, nxt = mesh.neighbours()
         corner_pan = np.flatnonzero(mesh.corner_at_start)
         if corner_levels is None:
-            need = np.array([_corner_levels(mesh, int(i), prev, levels, tolerance) for i in corner_pan], dtype=int)
+            need = np.array([_corner_levels(mesh, int(i), prev, levels, corner_tol) for i in corner_pan], dtype=int)
         else:
             need = np.full(corner_pan.size, min(levels, MAX_CORNER_LEVELS))
         corner_pan = corner_pan[need > level]

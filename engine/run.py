@@ -40,7 +40,7 @@ from .formulations import (
 )
 from .mesh import BoundaryContour, PanelMesh, build_panels, regrade
 from .operators import assemble_operators
-from .solve import check_memory, factorise
+from .solve import ProblemTooLargeError, check_memory, factorise
 
 __all__ = [
     "AccuracyWarning",
@@ -151,6 +151,14 @@ def _conditions(scene: Scene, mesh: PanelMesh, k: float) -> SurfaceConditions:
     return SurfaceConditions(kind, lam, np.repeat(mesh.lengths, mesh.p))
 
 
+def _fits(n_unknowns: int) -> bool:
+    try:
+        check_memory(n_unknowns)
+    except ProblemTooLargeError:
+        return False
+    return True
+
+
 def _panel_estimates(mesh: PanelMesh, x: ComplexArray) -> NDArray[np.float64]:
     """Relative error estimate of every panel, worst over the right-hand sides."""
     norm = np.sum(np.abs(x) * mesh.weights[:, None], axis=0)
@@ -206,12 +214,28 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
     lam = scene.wavelength(freq)
     t_mesh = time.perf_counter()
     boundaries = [BoundaryContour(b.body.outer, i, lam) for i, b in enumerate(scene.bodies)]
-    mesh = build_panels(
-        boundaries,
-        p=scene.nodes_per_panel,
-        tolerance=scene.tolerance,
-        max_panel_wavelengths=panel_wavelengths(scene),
-    )
+    notes: list[str] = []
+    corner_tol = scene.tolerance
+    while True:
+        mesh = build_panels(
+            boundaries,
+            p=scene.nodes_per_panel,
+            tolerance=scene.tolerance,
+            max_panel_wavelengths=panel_wavelengths(scene),
+            corner_tolerance=corner_tol,
+        )
+        if _fits(mesh.n_nodes) or corner_tol >= 1e-2 or not mesh.corner_at_start.any():
+            break
+        # Deep corner refinement would not fit in memory: refine the corners
+        # less (an answer with an honest error estimate beats a refusal).
+        corner_tol *= 10.0
+    if corner_tol > scene.tolerance:
+        msg = (
+            f"at {freq:.6g} Hz the corners were refined for a tolerance of {corner_tol:.0e} "
+            f"only, so that the {mesh.n_nodes} unknowns fit in memory"
+        )
+        warnings.warn(msg, AccuracyWarning, stacklevel=3)
+        notes.append(msg)
     timings = {"mesh_s": time.perf_counter() - t_mesh, "assemble_s": 0.0, "factorise_and_solve_s": 0.0}
     previous_ff = None
     change = None
@@ -246,20 +270,29 @@ def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -
         order = np.argsort(est)[::-1]
         count = int(np.searchsorted(np.cumsum(est[order]), MARK_FRACTION * tail_estimate)) + 1
         bad = order[:count]
+        refined = regrade(mesh.split(sorted(bad.tolist())))
+        if not _fits(refined.n_nodes):
+            msg = (
+                f"at {freq:.6g} Hz refinement stopped at {mesh.n_nodes} unknowns: "
+                f"the next mesh ({refined.n_nodes}) would not fit in memory"
+            )
+            warnings.warn(msg, AccuracyWarning, stacklevel=3)
+            notes.append(msg)
+            break
         previous_ff = ff
         refinements += 1
         log.info("refining %d of %d panels (estimate %.2e)", bad.size, mesh.n_panels, estimated)
-        mesh = regrade(mesh.split(sorted(bad.tolist())))
+        mesh = refined
     t_post = time.perf_counter()
     mono = np.full(len(columns), np.nan + 0j)
     for i in plane_cols:
         mono[i] = far_field(mesh, k, u[:, [i]], psi[:, [i]], np.array([columns[i]["from_deg"]]))[0, 0]
     timings["far_field_s"] = time.perf_counter() - t_post
-    notes = []
     if estimated > scene.tolerance:
         msg = (
             f"at {freq:.6g} Hz the estimated error {estimated:.2e} is above the tolerance "
-            f"{scene.tolerance:.1e} after {refinements} refinements; raise [solver] max_refinements"
+            f"{scene.tolerance:.1e} after {refinements} refinements"
+            + ("; raise [solver] max_refinements" if refinements >= scene.max_refinements else "")
         )
         warnings.warn(msg, AccuracyWarning, stacklevel=3)
         notes.append(msg)
