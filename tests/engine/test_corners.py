@@ -58,3 +58,25 @@ def test_wide_thin_strip_broadside_tends_to_physical_optics(field):
     sigma = 2 * math.pi * abs(fr.monostatic[0]) ** 2
     assert abs(sigma / (k * width**2) - 1) < 0.01
     assert fr.mesh.n_nodes < 6000  # thin bodies must not be refined to their thickness
+
+
+def test_memory_limit_refines_corners_less_and_says_so(monkeypatch):
+    # With room for about 1500 unknowns, a square at tolerance 1e-8 (which wants
+    # about 3500) is solved with shallower corner refinement, and the run warns.
+    import sectionwave.engine.solve as solve_mod
+    from sectionwave.engine import AccuracyWarning
+
+    room = 0.8 * 7 * 16 * 1500**2
+    monkeypatch.setattr(solve_mod, "available_memory_bytes", lambda: int(room / 0.8))
+    import warnings
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        fr = _solve("tm", SQUARE, 1e-8)
+    assert any(issubclass(w.category, AccuracyWarning) and "corners were refined" in str(w.message)
+               for w in caught)
+    assert fr.mesh.n_nodes <= 1500
+    assert any("fit in memory" in w for w in fr.warnings)
+    # the answer is still close: reciprocity holds to the looser corner tolerance
+    ff = fr.farfield
+    assert abs(ff[150, 0] - ff[40, 1]) / np.max(np.abs(ff)) < 1e-4
