@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import ezdxf
 import pytest
@@ -37,3 +38,28 @@ def test_dxf_circle_matches_series(tmp_path, how):
     fr = solve_scene(parse_case(case, base_dir=tmp_path)).frequencies[0]
     ref = circle_far_field(ka, k, fr.angles_deg, 10.0, "dirichlet", center=center)
     assert relative_error(fr.farfield[:, 0], ref) < 1e-8
+
+
+def test_bodies_picked_by_layer_or_point_from_sample_drawings():
+    from sectionwave.engine import CaseError
+
+    samples = Path(__file__).resolve().parents[1] / "samples"
+    base = {"wave": {"field": "te", "frequency_hz": 1e9}, "output": {"plots": False}}
+    by_layer = parse_case({**base, "geometry": {"file": "drawings/ribbed_mast.dxf"},
+                           "body": [{"name": "m", "layer": "MAST", "boundary": "pec"}]}, base_dir=samples)
+    body = by_layer.bodies[0].body
+    # the sample's section (samples/drawings/make_samples.py): 70 mm across, two holes
+    # (cable ducts) inside the outline, so the metal is less than the outline's area
+    assert len(body.holes) == 2
+    assert 0 < body.area() < body.outer.signed_area()
+    xmin, ymin, xmax, ymax = body.outer.bounding_box()
+    assert xmax - xmin == pytest.approx(0.070, rel=1e-6)
+    strut = parse_case({**base, "geometry": {"file": "drawings/strut.svg"},
+                        "body": [{"name": "s", "point_m": [0.02, 0.02], "boundary": "pec"}]}, base_dir=samples)
+    assert strut.bodies[0].body.outer.is_ccw
+    with pytest.raises(CaseError, match="not inside any body"):
+        parse_case({**base, "geometry": {"file": "drawings/strut.svg"},
+                    "body": [{"name": "s", "point_m": [5.0, 5.0], "boundary": "pec"}]}, base_dir=samples)
+    with pytest.raises(CaseError, match="NOPE"):
+        parse_case({**base, "geometry": {"file": "drawings/ribbed_mast.dxf"},
+                    "body": [{"name": "m", "layer": "NOPE", "boundary": "pec"}]}, base_dir=samples)
