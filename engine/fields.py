@@ -32,6 +32,7 @@ __all__ = [
     "cross_sections",
     "echo_width",
     "far_field",
+    "far_field_each",
     "line_source_wave",
     "plane_wave",
 ]
@@ -75,6 +76,22 @@ def far_field(
     return const * ((1j * k * proj * phase * w) @ u - (phase * w) @ psi)
 
 
+def far_field_each(
+    mesh: PanelMesh, k: complex, u: ComplexArray, psi: ComplexArray, angles_deg: FloatArray
+) -> ComplexArray:
+    """Far field of column ``m`` of ``u, psi`` at its own angle ``angles_deg[m]``: shape ``(m,)``.
+
+    The monostatic (backscatter) and forward amplitudes need one angle per
+    incident wave, not every angle for every wave.
+    """
+    phi = np.deg2rad(np.asarray(angles_deg, dtype=float))
+    rhat = np.column_stack([np.cos(phi), np.sin(phi)])
+    phase = np.exp(1j * k * (rhat @ mesh.nodes.T)) * mesh.weights  # (m, n)
+    proj = rhat @ mesh.normals.T
+    const = np.exp(-0.25j * np.pi) / np.sqrt(8 * np.pi * k)
+    return const * np.einsum("mn,nm->m", phase, 1j * k * proj.T * u - psi)
+
+
 def echo_width(farfield: ComplexArray, wavelength_m: float) -> dict[str, FloatArray]:
     """Echo width in m, dB re 1 m and dB re one wavelength."""
     sigma = 2 * np.pi * np.abs(farfield) ** 2
@@ -92,7 +109,7 @@ def cross_sections(
     body's electrical size (spectrally accurate for periodic integrands).
     The ``optical_residual`` is ``|C_ext - C_s - C_abs| / C_ext`` with the
     absorption ``C_abs`` computed independently from the surface power
-    flux ``-Im(int conj(u) psi ds) / k``; for lossless bodies ``C_abs = 0``.
+    flux ``Im(int conj(u) psi ds) / k``; for lossless bodies ``C_abs = 0``.
     """
     radius = float(np.max(np.hypot(*(mesh.nodes - mesh.nodes.mean(axis=0)).T)))
     n_ang = int(max(64, 2 * int(abs(k) * radius) + 64))
@@ -100,13 +117,7 @@ def cross_sections(
     grid = np.arange(n_ang) * 360.0 / n_ang
     ff = far_field(mesh, k, u, psi, grid)
     c_s = np.sum(np.abs(ff) ** 2, axis=0) * (2 * np.pi / n_ang)
-    phi_i = np.asarray(from_deg, dtype=float)
-    fwd = np.array(
-        [
-            far_field(mesh, k, u[:, [m]], psi[:, [m]], np.array([phi_i[m] + 180.0]))[0, 0]
-            for m in range(u.shape[1])
-        ]
-    )
+    fwd = far_field_each(mesh, k, u, psi, np.asarray(from_deg, dtype=float) + 180.0)
     c_ext = -2 * np.sqrt(2 * np.pi / abs(k)) * np.real(np.exp(-0.25j * np.pi) * fwd)
     # Time-averaged intensity for exp(+j w t) is -Im(conj(u) grad u) / k in
     # units of the incident plane wave's; the power flowing into the body
