@@ -174,4 +174,5 @@ def needed_operators(cond: SurfaceConditions) -> dict[str, bool]:
     p_u, p_psi = _columns(cond, 1.0)
     has_u = bool(np.any(p_u != 0))
     has_psi = bool(np.any(p_psi != 0))
-    return {"need_s": has_psi or has_u, "need_d": has_u, "need_dp": has_psi, "need_t": has_u}
+    # S is always needed: for psi unknowns directly, for u unknowns inside T.
+    return {"need_s": True, "need_d": has_u, "need_dp": has_psi, "need_t": has_u}

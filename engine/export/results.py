@@ -31,6 +31,7 @@ from typing import Any
 
 import numpy as np
 
+from ..fields import echo_width
 from .atomic import atomic_write_text
 from .tables import conjugate_for_convention, write_csv
 
@@ -85,16 +86,14 @@ def write_run(result: Any, out_dir: Path, *, convention: str | None = None) -> l
         plane = [m for m, c in enumerate(fr.columns) if c["kind"] == "plane"]
         if plane:
             mono = _conv(fr.monostatic[plane], conv)
-            sigma = 2 * math.pi * np.abs(mono) ** 2
-            with np.errstate(divide="ignore"):
-                db = 10 * np.log10(sigma)
+            mono_ew = echo_width(mono, fr.wavelength_m)
             mono_rows["frequency_hz"].append(np.full(len(plane), fr.frequency_hz))
             mono_rows["from_deg"].append(np.array([fr.columns[m]["from_deg"] for m in plane]))
             mono_rows["farfield_re"].append(mono.real)
             mono_rows["farfield_im"].append(mono.imag)
-            mono_rows["echo_width_m"].append(sigma)
-            mono_rows["echo_width_db_m"].append(db)
-            mono_rows["echo_width_db_lambda"].append(db - 10 * np.log10(fr.wavelength_m))
+            mono_rows["echo_width_m"].append(mono_ew["m"])
+            mono_rows["echo_width_db_m"].append(mono_ew["db_m"])
+            mono_rows["echo_width_db_lambda"].append(mono_ew["db_lambda"])
         mesh = fr.mesh
         phys = physical_surface_quantities(scene, fr)
         n = mesh.n_nodes
@@ -345,6 +344,11 @@ def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
     return written
 
 
+def _db_floored(farfield: np.ndarray, wavelength_m: float) -> np.ndarray:
+    """Echo width in dB re 1 m, with a zero field drawn at -3000 dB instead of -inf."""
+    return np.maximum(echo_width(farfield, wavelength_m)["db_m"], -3000.0)
+
+
 def _write_plots(result: Any, out_dir: Path) -> list[str]:
     from ..run import echo_width_table
     from .plots import (
@@ -370,8 +374,7 @@ def _write_plots(result: Any, out_dir: Path) -> list[str]:
     if len(plane) > 1:
         mono: dict[str, np.ndarray] = {}
         for fr in frs[:4]:
-            sigma = 2 * math.pi * np.abs(fr.monostatic[plane]) ** 2
-            mono[f"{fr.frequency_hz:.4g} Hz"] = 10 * np.log10(np.maximum(sigma, 1e-300))
+            mono[f"{fr.frequency_hz:.4g} Hz"] = _db_floored(fr.monostatic[plane], fr.wavelength_m)
         angles = np.array([fr0.columns[m]["from_deg"] for m in plane])
         plot_echo_width_polar(out_dir / "monostatic_polar.png", angles, mono, title="Monostatic echo width")
         plot_echo_width_cartesian(out_dir / "monostatic.png", angles, mono, title="Monostatic echo width")
@@ -379,8 +382,9 @@ def _write_plots(result: Any, out_dir: Path) -> list[str]:
     if len(frs) > 1 and plane:
         curves = {}
         for m in plane[:3]:
-            sig = np.array([2 * math.pi * abs(fr.monostatic[m]) ** 2 for fr in frs])
-            curves[f"monostatic from {fr0.columns[m]['from_deg']:g} deg"] = 10 * np.log10(np.maximum(sig, 1e-300))
+            curves[f"monostatic from {fr0.columns[m]['from_deg']:g} deg"] = np.array(
+                [_db_floored(fr.monostatic[[m]], fr.wavelength_m)[0] for fr in frs]
+            )
         plot_echo_width_vs_frequency(out_dir / "echo_width_vs_frequency.png", np.array([fr.frequency_hz for fr in frs]), curves)
         written.append("echo_width_vs_frequency.png")
     mesh = frs[-1].mesh
