@@ -2,11 +2,15 @@
 
 The small public API, used by the command line too::
 
-    from sectionwave.engine import load_case, solve_scene, write_run
-    scene = load_case("mast.toml")
-    result = solve_scene(scene)
-    result.frequencies[0].farfield      # complex far field, (angles, incident waves)
-    write_run(result, "mast-results")
+    from sectionwave.engine import load_case, solve_problem, write_run
+    case = load_case("mast.toml")        # case.problem (physics), case.output (what to write)
+    result = solve_problem(case.problem)
+    result.frequencies[0].farfield       # complex far field, (angles, incident waves)
+    write_run(result, "mast-results", case.output)
+
+Layers: the face (``case``, ``cli``) turns case files into a ``Problem``;
+the core (every other module but ``export``) solves it and returns typed
+results (``results``); ``export`` writes them.
 """
 
 from __future__ import annotations
@@ -15,33 +19,55 @@ from pathlib import Path
 
 __version__ = "0.1.0"
 
-from .case import CaseError, Scene, load_case, parse_case  # noqa: E402
-from .run import AccuracyWarning, FrequencyResult, IllConditionedWarning, RunResult, solve_scene  # noqa: E402
+from .adapt import AccuracyWarning  # noqa: E402
+from .case import Case, CaseError, load_case, parse_case  # noqa: E402
+from .conventions import TimeConvention  # noqa: E402
+from .export.options import OutputOptions  # noqa: E402
+from .problem import IncidentWave, Medium, NearFieldRequest, Problem, Scatterer, SolverOptions  # noqa: E402
+from .results import FrequencySolution, RunResult  # noqa: E402
+from .run import solve_problem  # noqa: E402
+from .solve import IllConditionedWarning, ProblemTooLargeError  # noqa: E402
 
 
-def write_run(result: RunResult, out_dir: str | Path, *, force: bool = False, convention: str | None = None) -> Path:
+def write_run(
+    result: RunResult,
+    out_dir: str | Path,
+    output: OutputOptions | None = None,
+    *,
+    force: bool = False,
+    convention: TimeConvention | None = None,
+) -> Path:
     """Write all outputs of ``result`` into ``out_dir`` atomically (staged, then renamed).
 
-    Refuses an existing non-empty folder unless ``force``.
+    Refuses an existing non-empty folder unless ``force``; ``convention``
+    overrides ``output.time_convention``.
     """
     from .export.atomic import staged_output_dir
     from .export.results import write_run as _write
 
     with staged_output_dir(Path(out_dir), force=force) as staging:
-        _write(result, staging, convention=convention)
+        _write(result, staging, output, convention=convention)
     return Path(out_dir)
 
 
 __all__ = [
     "AccuracyWarning",
+    "Case",
     "CaseError",
-    "FrequencyResult",
+    "FrequencySolution",
     "IllConditionedWarning",
+    "IncidentWave",
+    "Medium",
+    "NearFieldRequest",
+    "OutputOptions",
+    "Problem",
+    "ProblemTooLargeError",
     "RunResult",
-    "Scene",
+    "Scatterer",
+    "SolverOptions",
     "__version__",
     "load_case",
     "parse_case",
-    "solve_scene",
+    "solve_problem",
     "write_run",
 ]

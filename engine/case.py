@@ -1,13 +1,14 @@
-"""Case files (TOML): the object, the wave, and what to compute.
+"""Case files (TOML): the face that turns a case into a problem and output options.
 
 Glossary
 --------
 case
-    One TOML document; every key is checked, unknown keys are errors.
-scene
-    The validated case: bodies with their boundary conditions, the wave
-    (field kind and frequencies), incident waves, far-field angles and the
-    solver settings, all in SI units.
+    One TOML document; every key is checked, unknown keys are errors. It
+    becomes a ``Case``: the physics ``Problem`` the engine solves (bodies
+    with their boundary conditions, the wave, incident waves, far-field
+    angles, near-field requests and solver settings, all in SI units) and
+    the ``OutputOptions`` (what to write, the title, the drawing audit),
+    which the engine never sees.
 number, list or range
     Frequencies and angles accept ``9.4e9``, ``[1e9, 2e9]`` or
     ``{ start = 0, stop = 360, count = 73 }`` (both ends included).
@@ -36,7 +37,6 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from dataclasses import field as dc_field
 from pathlib import Path
 from typing import Any
 
@@ -48,32 +48,27 @@ from sectionwave.importers.curves import (
     EllipticalArc,
     Line,
     circular_arc,
+    polygon_segments,
 )
 from sectionwave.importers.errors import SectionwaveError
 
-__all__ = [
-    "BodySpec",
-    "CaseError",
-    "IncidentSpec",
-    "NearFieldSpec",
-    "Scene",
-    "load_case",
-    "parse_case",
-]
+from .conventions import TIME_CONVENTIONS
+from .export.options import OutputOptions
+from .problem import (
+    BOUNDARIES,
+    DENSITY_AIR_KG_M3,
+    FIELDS,
+    SOUND_SPEED_AIR_M_S,
+    SPEED_OF_LIGHT_M_S,
+    IncidentWave,
+    Medium,
+    NearFieldRequest,
+    Problem,
+    Scatterer,
+    SolverOptions,
+)
 
-SPEED_OF_LIGHT_M_S = 299_792_458.0
-#: Air at 20 degC, 1 atm (common practice values).
-SOUND_SPEED_AIR_M_S = 343.0
-DENSITY_AIR_KG_M3 = 1.204
-#: Permeability of free space (SI 2019 value, to 10 digits).
-MU0_H_M = 1.25663706212e-6
-
-FIELDS = ("tm", "te", "acoustic")
-BOUNDARIES = {
-    "tm": ("pec", "impedance"),
-    "te": ("pec", "impedance"),
-    "acoustic": ("soft", "hard", "impedance"),
-}
+__all__ = ["Case", "CaseError", "load_case", "parse_case"]
 
 
 class CaseError(SectionwaveError, ValueError):
@@ -81,67 +76,11 @@ class CaseError(SectionwaveError, ValueError):
 
 
 @dataclass(frozen=True)
-class BodySpec:
-    """One body of the scene and its boundary condition."""
+class Case:
+    """A validated case: the physics problem for the engine and what to write."""
 
-    name: str
-    body: Body
-    boundary: str
-    impedance: complex | None = None
-    source: str = "inline shape"
-
-
-@dataclass(frozen=True)
-class IncidentSpec:
-    """Plane waves from a list of angles, or a line source at a point."""
-
-    kind: str
-    from_deg: tuple[float, ...] = ()
-    position_m: tuple[float, float] | None = None
-    name: str = ""
-
-
-@dataclass(frozen=True)
-class NearFieldSpec:
-    """A rectangular grid of field points and/or probe points."""
-
-    x: np.ndarray | None
-    y: np.ndarray | None
-    probes: np.ndarray | None
-    from_deg: tuple[float, ...] | None = None
-
-
-@dataclass
-class Scene:
-    """A validated case, in SI units."""
-
-    title: str
-    field: str
-    frequencies_hz: tuple[float, ...]
-    wave_speed_m_s: float
-    density_kg_m3: float
-    bodies: list[BodySpec]
-    incidents: list[IncidentSpec]
-    far_field_deg: np.ndarray
-    tolerance: float = 1e-8
-    nodes_per_panel: int = 16
-    max_panel_wavelengths: float | None = None
-    max_refinements: int = 10
-    time_convention: str = "engineering"
-    plots: bool = True
-    vtk: bool = True
-    near_field: NearFieldSpec | None = None
-    source: str = "<case>"
-    drawing_audit: dict[str, Any] | None = None
-    notes: list[str] = dc_field(default_factory=list)
-
-    def wavenumber(self, frequency_hz: float) -> float:
-        """``k = 2 pi f / c`` in rad/m."""
-        return 2 * math.pi * frequency_hz / self.wave_speed_m_s
-
-    def wavelength(self, frequency_hz: float) -> float:
-        """``c / f`` in metres."""
-        return self.wave_speed_m_s / frequency_hz
+    problem: Problem
+    output: OutputOptions
 
 
 class _Reader:
@@ -278,7 +217,7 @@ def _inline_shape(r: _Reader) -> Body:
         ):
             raise r.fail("points_m", "must be a list of at least 3 points [[x, y], ...] of finite numbers in metres")
         arr = np.array(pts, dtype=float) @ rot.T + center
-        contour = Contour(tuple(Line(arr[i], arr[(i + 1) % len(arr)]) for i in range(len(arr))))
+        contour = Contour(polygon_segments(arr))
         _check_simple_polygon(r, arr)
     r.finish()
     return Body(contour)
@@ -299,7 +238,7 @@ def _rounded_rectangle(w: float, h: float, rc: float) -> Contour:
     hx, hy = 0.5 * w, 0.5 * h
     if rc == 0:
         pts = np.array([[-hx, -hy], [hx, -hy], [hx, hy], [-hx, hy]])
-        return Contour(tuple(Line(pts[i], pts[(i + 1) % 4]) for i in range(4)))
+        return Contour(polygon_segments(pts))
     segs: list[Any] = []
     corners = [(hx - rc, -hy + rc, -0.5 * math.pi), (hx - rc, hy - rc, 0.0),
                (-hx + rc, hy - rc, 0.5 * math.pi), (-hx + rc, -hy + rc, math.pi)]
@@ -328,8 +267,8 @@ def _impedance(r: _Reader) -> complex:
     return z
 
 
-def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path | None = None) -> Scene:
-    """Validate a parsed TOML document into a ``Scene``.
+def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path | None = None) -> Case:
+    """Validate a parsed TOML document into a ``Case``.
 
     Raises
     ------
@@ -341,9 +280,51 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     for name in ("wave", "far_field", "solver", "output", "geometry", "near_field"):
         if top.has(name) and not isinstance(doc[name], Mapping):
             raise top.fail(name, "must be a table")
-    wave = _Reader(source, top.get("wave") or {}, "wave")
     if not top.has("wave"):
         raise top.fail("wave", "is required: [wave] with field and frequency_hz")
+    field_kind, freqs, medium = _wave(_Reader(source, top.get("wave") or {}, "wave"))
+
+    geometry = top.get("geometry")
+    drawing = None
+    audit = None
+    if geometry is not None:
+        drawing, audit = _load_geometry(_Reader(source, geometry, "geometry"), base_dir)
+    scatterers = _bodies(top, source, field_kind, drawing)
+    notes = tuple(
+        f"body {s.name!r} has {len(s.body.holes)} hole(s): closed cavities of an impenetrable "
+        "body do not affect the exterior field and are not meshed"
+        for s in scatterers if s.body.holes
+    )
+    incidents = _incidents(top, source, scatterers)
+
+    ffr = _Reader(source, top.get("far_field") or {}, "far_field")
+    if ffr.has("angles_deg"):
+        angles = np.array(ffr.values("angles_deg"))
+    else:
+        ffr.used.add("angles_deg")
+        angles = np.linspace(0.0, 360.0, 721)
+    ffr.finish()
+    solver = _solver(_Reader(source, top.get("solver") or {}, "solver"))
+    output = _output(_Reader(source, top.get("output") or {}, "output"), title, source, audit, notes)
+    near = None
+    if top.has("near_field"):
+        near = _near_field(_Reader(source, top.get("near_field"), "near_field"), base_dir, incidents)
+    top.used.update({"body", "incident"})
+    top.finish()
+    problem = Problem(
+        field=field_kind,
+        medium=medium,
+        scatterers=tuple(scatterers),
+        incidents=tuple(incidents),
+        frequencies_hz=freqs,
+        far_field_deg=angles,
+        near_field=near,
+        solver=solver,
+    )
+    return Case(problem, output)
+
+
+def _wave(wave: _Reader) -> tuple[Any, tuple[float, ...], Medium]:
     field_kind = wave.text("field", choices=FIELDS)
     freqs = wave.values("frequency_hz", positive=True)
     if len(set(freqs)) != len(freqs):
@@ -354,18 +335,15 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     else:
         speed, density = SPEED_OF_LIGHT_M_S, 0.0
     wave.finish()
+    return field_kind, freqs, Medium(speed, density)
 
-    geometry = top.get("geometry")
-    drawing = None
-    audit = None
-    if geometry is not None:
-        drawing, audit = _load_geometry(_Reader(source, geometry, "geometry"), base_dir)
 
+def _bodies(top: _Reader, source: str, field_kind: str, drawing: Any) -> list[Scatterer]:
     raw_bodies = top.get("body")
     if not isinstance(raw_bodies, list) or not raw_bodies:
         raise top.fail("body", "is required: at least one [[body]] table")
     raw_bodies = _tables(top, "body", raw_bodies)
-    bodies: list[BodySpec] = []
+    bodies: list[Scatterer] = []
     allowed = BOUNDARIES[field_kind]
     for i, raw in enumerate(raw_bodies):
         br = _Reader(source, raw, f"body.{i}")
@@ -392,53 +370,46 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         br.finish()
         for n, body in enumerate(found):
             label = name if len(found) == 1 else f"{name}.{n + 1}"
-            bodies.append(BodySpec(label, Body(body.outer, body.holes, label), boundary, imp, where))
+            bodies.append(Scatterer(label, Body(body.outer, body.holes, label), boundary, imp, where))
     body_names = [b.name for b in bodies]
     if len(set(body_names)) != len(body_names):
         raise top.fail("body", f"names must differ, got {body_names}")
     _check_disjoint(source, bodies)
-    notes = [
-        f"body {b.name!r} has {len(b.body.holes)} hole(s): closed cavities of an impenetrable "
-        "body do not affect the exterior field and are not meshed"
-        for b in bodies if b.body.holes
-    ]
+    return bodies
 
+
+def _incidents(top: _Reader, source: str, bodies: list[Scatterer]) -> list[IncidentWave]:
     raw_inc = top.get("incident")
     if raw_inc is None:
         raw_inc = [{"kind": "plane", "from_deg": 0.0}]
     raw_inc = _tables(top, "incident", raw_inc)
     if not raw_inc:
         raise top.fail("incident", "is empty: give at least one [[incident]] wave")
-    incidents: list[IncidentSpec] = []
+    incidents: list[IncidentWave] = []
+    names = []
     for i, raw in enumerate(raw_inc):
         ir = _Reader(source, raw, f"incident.{i}")
         kind = ir.text("kind", "plane", choices=("plane", "line"))
         name = ir.text("name", f"incident{i + 1}")
+        names.append(name)
         if kind == "plane":
             angles_in = ir.values("from_deg")
             if len(set(angles_in)) != len(angles_in):
                 raise ir.fail("from_deg", f"repeats an angle: {list(angles_in)}")
-            incidents.append(IncidentSpec("plane", angles_in, None, name))
+            incidents.extend(IncidentWave(name, "plane", from_deg=a) for a in angles_in)
         else:
             pos = ir.point("position_m")
             for b in bodies:
                 if bool(b.body.contains([pos])[0]):
                     raise ir.fail("position_m", f"{list(pos)} m is inside body {b.name!r}; a line source must be outside every body")
-            incidents.append(IncidentSpec("line", (), pos, name))
+            incidents.append(IncidentWave(name, "line", position_m=pos))
         ir.finish()
-    names = [i.name for i in incidents]
     if len(set(names)) != len(names):
         raise top.fail("incident", f"names must differ, got {names}")
+    return incidents
 
-    ffr = _Reader(source, top.get("far_field") or {}, "far_field")
-    if ffr.has("angles_deg"):
-        angles = np.array(ffr.values("angles_deg"))
-    else:
-        ffr.used.add("angles_deg")
-        angles = np.linspace(0.0, 360.0, 721)
-    ffr.finish()
 
-    sr = _Reader(source, top.get("solver") or {}, "solver")
+def _solver(sr: _Reader) -> SolverOptions:
     tol = sr.number("tolerance", 1e-8, positive=True)
     if not 1e-14 <= tol <= 1e-2:
         raise sr.fail("tolerance", f"must be between 1e-14 and 1e-2, got {tol!r}")
@@ -451,53 +422,31 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     if isinstance(refinements, bool) or not isinstance(refinements, int) or not 0 <= refinements <= 20:
         raise sr.fail("max_refinements", f"must be an integer from 0 to 20, got {refinements!r}")
     sr.finish()
+    return SolverOptions(tol, int(p), mpw, int(refinements))
 
-    orr = _Reader(source, top.get("output") or {}, "output")
-    convention = orr.text("time_convention", "engineering", choices=("engineering", "physics"))
+
+def _output(
+    orr: _Reader, title: str, source: str, audit: dict[str, Any] | None, notes: tuple[str, ...]
+) -> OutputOptions:
+    convention = orr.text("time_convention", "engineering", choices=TIME_CONVENTIONS)
     plots = orr.get("plots", True)
     vtk = orr.get("vtk", True)
     for key, val in (("plots", plots), ("vtk", vtk)):
         if not isinstance(val, bool):
             raise orr.fail(key, f"must be true or false, got {val!r}")
     orr.finish()
-
-    near = None
-    if top.has("near_field"):
-        near = _near_field(_Reader(source, top.get("near_field"), "near_field"), base_dir)
-        if near.from_deg is not None:
-            plane = {a for i in incidents if i.kind == "plane" for a in i.from_deg}
-            missing = [a for a in near.from_deg if not any(abs(a - b) < 1e-9 for b in plane)]
-            if missing:
-                raise CaseError(
-                    f"{source}: [near_field.from_deg] {missing} matches no plane-wave incidence; "
-                    "use angles listed in [[incident]] from_deg"
-                )
-    top.used.update({"body", "incident"})
-    top.finish()
-    return Scene(
-        title=title,
-        field=field_kind,
-        frequencies_hz=freqs,
-        wave_speed_m_s=speed,
-        density_kg_m3=density,
-        bodies=bodies,
-        incidents=incidents,
-        far_field_deg=angles,
-        tolerance=tol,
-        nodes_per_panel=int(p),
-        max_panel_wavelengths=mpw,
-        max_refinements=int(refinements),
-        time_convention=convention,
+    return OutputOptions(
+        time_convention=convention,  # type: ignore[arg-type]  # checked against TIME_CONVENTIONS above
         plots=bool(plots),
         vtk=bool(vtk),
-        near_field=near,
-        source=source,
+        title=title,
+        case=source,
         drawing_audit=audit,
         notes=notes,
     )
 
 
-def _near_field(r: _Reader, base_dir: Path | None) -> NearFieldSpec:
+def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]) -> NearFieldRequest:
     x = y = probes = None
     if r.has("x_m") or r.has("y_m"):
         xr, yr = r.point("x_m"), r.point("y_m")
@@ -526,9 +475,23 @@ def _near_field(r: _Reader, base_dir: Path | None) -> NearFieldSpec:
         probes = _read_probes(r, path)
     if x is None and probes is None:
         raise r.fail("x_m", "give a grid (x_m, y_m, spacing_m or count) or probes_csv")
-    angles = r.values("from_deg") if r.has("from_deg") else None
+    if r.has("from_deg"):
+        angles = r.values("from_deg")
+        plane = {w.from_deg for w in incidents if w.is_plane}
+        missing = [a for a in angles if not any(abs(a - b) < 1e-9 for b in plane)]
+        if missing:
+            raise CaseError(
+                f"{r.source}: [near_field.from_deg] {missing} matches no plane-wave incidence; "
+                "use angles listed in [[incident]] from_deg"
+            )
+        chosen = tuple(
+            i for i, w in enumerate(incidents)
+            if w.is_plane and any(abs(w.from_deg - a) < 1e-9 for a in angles)
+        )
+    else:
+        chosen = tuple(range(len(incidents)))
     r.finish()
-    return NearFieldSpec(x, y, probes, angles)
+    return NearFieldRequest(chosen, x, y, probes)
 
 
 def _read_probes(r: _Reader, path: Path) -> np.ndarray:
@@ -552,7 +515,7 @@ def _read_probes(r: _Reader, path: Path) -> np.ndarray:
     return np.array(pts)
 
 
-def _check_disjoint(source: str, bodies: list[BodySpec]) -> None:
+def _check_disjoint(source: str, bodies: list[Scatterer]) -> None:
     from shapely.geometry import Polygon
 
     polys = [Polygon(b.body.outer.sample(64)) for b in bodies]
@@ -598,7 +561,7 @@ def _pick_from_drawing(br: _Reader, how: str, drawing: Any) -> tuple[list[Body],
     return found[:1], f"body at ({x}, {y}) m"
 
 
-def load_case(path: str | Path) -> Scene:
+def load_case(path: str | Path) -> Case:
     """Read and validate a case file (``-`` reads standard input).
 
     Raises

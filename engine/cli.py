@@ -1,8 +1,9 @@
 """Command line: ``sectionwave run CASE.toml`` and ``sectionwave inspect DRAWING``.
 
 Exit codes: 0 success, 2 bad input (one line naming file, key and allowed
-values), 1 internal failure. Progress goes to stderr only when it is a
-terminal; ``--quiet`` silences everything but errors.
+values), 1 internal failure, 130 interrupted. Progress goes to stderr only
+when it is a terminal; ``--quiet`` silences everything but errors;
+``--verbose`` shows the engine's log (refinements, timings).
 """
 
 from __future__ import annotations
@@ -22,12 +23,14 @@ EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
 
 def _parser() -> argparse.ArgumentParser:
     from . import __version__
+    from .conventions import TIME_CONVENTIONS
 
     parser = argparse.ArgumentParser(
         prog="sectionwave",
         description="2D wave scattering from CAD cross-sections (echo width, far field, surface fields).",
     )
     parser.add_argument("--version", action="version", version=f"sectionwave {__version__}")
+    parser.add_argument("-v", "--verbose", action="store_true", help="show the engine's log on stderr")
     sub = parser.add_subparsers(dest="command", required=True)
     run = sub.add_parser("run", help="solve a case file and write its results")
     run.add_argument("case", help="case file (TOML), or - to read it from standard input")
@@ -35,7 +38,7 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--force", action="store_true", help="replace an existing results folder")
     run.add_argument("--quiet", action="store_true", help="print nothing but errors")
     run.add_argument(
-        "--time-convention", choices=("engineering", "physics"), default=None,
+        "--time-convention", choices=TIME_CONVENTIONS, default=None,
         help="engineering: exp(+j w t) (default); physics: exp(-i w t), complex conjugates",
     )
     ins = sub.add_parser("inspect", help="show what a drawing holds and how it cleans into bodies")
@@ -53,9 +56,10 @@ def _say(quiet: bool, message: str) -> None:
 
 
 def _run(args: argparse.Namespace) -> int:
-    from . import load_case, solve_scene, write_run
+    from . import load_case, solve_problem, write_run
+    from .solve import ProblemTooLargeError
 
-    scene = load_case(args.case)
+    case = load_case(args.case)
     if args.out is not None:
         out = args.out
     elif args.case == "-":
@@ -76,8 +80,13 @@ def _run(args: argparse.Namespace) -> int:
     progress = (lambda msg: print(msg, file=sys.stderr)) if show else None
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        result = solve_scene(scene, progress=progress)
-    write_run(result, out, force=args.force, convention=args.time_convention)
+        try:
+            result = solve_problem(case.problem, progress=progress)
+        except ProblemTooLargeError as exc:
+            raise _BadInput(
+                f"{case.output.case}: {exc} (case keys: [wave] frequency_hz, [solver] tolerance)"
+            ) from None
+    write_run(result, out, case.output, force=args.force, convention=args.time_convention)
     for w in caught:
         _say(args.quiet, f"warning: {w.message}")
     worst = max(fr.estimated_error for fr in result.frequencies)
@@ -106,6 +115,17 @@ def _inspect(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _configure_log(level: int) -> None:
+    """Send sectionwave's own log records to stderr at ``level`` (one handler, however often called)."""
+    logger = logging.getLogger("sectionwave")
+    logger.setLevel(level)
+    if not any(getattr(h, "_sectionwave", False) for h in logger.handlers):
+        handler = logging.StreamHandler(sys.stderr)
+        handler.setFormatter(logging.Formatter("%(levelname)s: %(message)s"))
+        handler._sectionwave = True  # type: ignore[attr-defined]  # marks our own handler
+        logger.addHandler(handler)
+
+
 class _BadInput(Exception):
     pass
 
@@ -116,7 +136,9 @@ def main(argv: Sequence[str] | None = None) -> int:
 
     args = _parser().parse_args(argv)
     level = logging.ERROR if getattr(args, "quiet", False) else logging.WARNING
-    logging.basicConfig(level=level, format="%(levelname)s: %(message)s", stream=sys.stderr)
+    if args.verbose and not getattr(args, "quiet", False):
+        level = logging.INFO
+    _configure_log(level)
     try:
         if args.command == "run":
             return _run(args)

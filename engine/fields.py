@@ -11,7 +11,7 @@ line source at r_s
 far-field amplitude F
     ``u_scat ~ F(phi) exp(-j k r) / sqrt(r)``. From the Green's
     representation and the large-argument form of H0^(2) (DLMF 10.17.6),
-    ``F(phi) = e^(-j pi/4) / sqrt(8 pi k) * int (j k (r_hat.n) u - psi) e^(j k r_hat.y) ds``.
+    ``F(phi) = e^(-j pi/4) / sqrt(8 pi k) * int (j k (r_hat.n) u - dudn) e^(j k r_hat.y) ds``.
 echo width
     ``sigma_2D = 2 pi |F|^2`` in metres, also in dB re 1 m and re one wavelength.
 scattering and extinction widths
@@ -22,19 +22,27 @@ scattering and extinction widths
 
 from __future__ import annotations
 
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
 import numpy as np
 import scipy.special as sp
 from numpy.typing import NDArray
 
 from .mesh import PanelMesh
+from .problem import MU0_H_M, FieldKind, IncidentWave
 
 __all__ = [
+    "CrossSections",
     "cross_sections",
     "echo_width",
     "far_field",
     "far_field_each",
+    "incident_field",
     "line_source_wave",
     "plane_wave",
+    "surface_quantities",
 ]
 
 FloatArray = NDArray[np.float64]
@@ -63,23 +71,40 @@ def line_source_wave(
     return u[:, None], dn[:, None]
 
 
+def incident_field(
+    incidents: Sequence[IncidentWave], points: FloatArray, normals: FloatArray, k: complex
+) -> tuple[ComplexArray, ComplexArray]:
+    """Incident field and its derivative along ``normals`` at ``points``, one column per wave."""
+    u = np.empty((points.shape[0], len(incidents)), dtype=complex)
+    dn = np.empty_like(u)
+    plane = [i for i, w in enumerate(incidents) if w.is_plane]
+    if plane:
+        u[:, plane], dn[:, plane] = plane_wave(points, normals, k, np.array([incidents[i].from_deg for i in plane]))
+    for i, w in enumerate(incidents):
+        if not w.is_plane:
+            assert w.position_m is not None
+            a, b = line_source_wave(points, normals, k, np.array(w.position_m))
+            u[:, [i]], dn[:, [i]] = a, b
+    return u, dn
+
+
 def far_field(
-    mesh: PanelMesh, k: complex, u: ComplexArray, psi: ComplexArray, angles_deg: FloatArray
+    mesh: PanelMesh, k: complex, u: ComplexArray, dudn: ComplexArray, angles_deg: FloatArray
 ) -> ComplexArray:
-    """Far-field amplitude at ``angles_deg`` for each column of ``u, psi``: ``(n_angles, m)``."""
+    """Far-field amplitude at ``angles_deg`` for each column of ``u, dudn``: ``(n_angles, m)``."""
     phi = np.deg2rad(np.asarray(angles_deg, dtype=float))
     rhat = np.column_stack([np.cos(phi), np.sin(phi)])
     phase = np.exp(1j * k * (rhat @ mesh.nodes.T))  # (a, n)
     proj = rhat @ mesh.normals.T
     const = np.exp(-0.25j * np.pi) / np.sqrt(8 * np.pi * k)
     w = mesh.weights
-    return const * ((1j * k * proj * phase * w) @ u - (phase * w) @ psi)
+    return const * ((1j * k * proj * phase * w) @ u - (phase * w) @ dudn)
 
 
 def far_field_each(
-    mesh: PanelMesh, k: complex, u: ComplexArray, psi: ComplexArray, angles_deg: FloatArray
+    mesh: PanelMesh, k: complex, u: ComplexArray, dudn: ComplexArray, angles_deg: FloatArray
 ) -> ComplexArray:
-    """Far field of column ``m`` of ``u, psi`` at its own angle ``angles_deg[m]``: shape ``(m,)``.
+    """Far field of column ``m`` of ``u, dudn`` at its own angle ``angles_deg[m]``: shape ``(m,)``.
 
     The monostatic (backscatter) and forward amplitudes need one angle per
     incident wave, not every angle for every wave.
@@ -89,46 +114,91 @@ def far_field_each(
     phase = np.exp(1j * k * (rhat @ mesh.nodes.T)) * mesh.weights  # (m, n)
     proj = rhat @ mesh.normals.T
     const = np.exp(-0.25j * np.pi) / np.sqrt(8 * np.pi * k)
-    return const * np.einsum("mn,nm->m", phase, 1j * k * proj.T * u - psi)
+    return const * np.einsum("mn,nm->m", phase, 1j * k * proj.T * u - dudn)
 
 
 def echo_width(farfield: ComplexArray, wavelength_m: float) -> dict[str, FloatArray]:
-    """Echo width in m, dB re 1 m and dB re one wavelength."""
+    """Echo width in m (``m``), dB re 1 m (``db_m``) and dB re one wavelength (``db_lambda``).
+
+    An exactly zero far field gives ``-inf`` dB; writers floor it at ``conventions.DB_FLOOR``.
+    """
     sigma = 2 * np.pi * np.abs(farfield) ** 2
     with np.errstate(divide="ignore"):
         db_m = 10 * np.log10(sigma)
     return {"m": sigma, "db_m": db_m, "db_lambda": db_m - 10 * np.log10(wavelength_m)}
 
 
+@dataclass(frozen=True)
+class CrossSections:
+    """Widths (m) per plane-wave incidence and the optical-theorem residual.
+
+    ``absorption_width_m`` is ``C_ext - C_s``; ``surface_absorption_m`` is
+    the power flowing into the bodies through their surfaces, computed
+    independently; ``optical_residual`` compares the two (see ``cross_sections``).
+    """
+
+    from_deg: FloatArray
+    scattering_width_m: FloatArray
+    extinction_width_m: FloatArray
+    absorption_width_m: FloatArray
+    surface_absorption_m: FloatArray
+    optical_residual: FloatArray
+
+    def widths(self) -> dict[str, FloatArray]:
+        """The widths and the residual keyed by their names in the summary."""
+        return {
+            "scattering_width_m": self.scattering_width_m,
+            "extinction_width_m": self.extinction_width_m,
+            "absorption_width_m": self.absorption_width_m,
+            "surface_absorption_m": self.surface_absorption_m,
+            "optical_residual": self.optical_residual,
+        }
+
+
 def cross_sections(
-    mesh: PanelMesh, k: complex, u: ComplexArray, psi: ComplexArray, from_deg: FloatArray
-) -> dict[str, FloatArray]:
+    mesh: PanelMesh, k: complex, u: ComplexArray, dudn: ComplexArray, from_deg: FloatArray
+) -> CrossSections:
     """Scattering, extinction and absorption widths (m) and the optical-theorem residual.
 
     ``C_s`` uses the trapezoidal rule on an angle grid fine enough for the
     body's electrical size (spectrally accurate for periodic integrands).
     The ``optical_residual`` is ``|C_ext - C_s - C_abs| / C_ext`` with the
     absorption ``C_abs`` computed independently from the surface power
-    flux ``Im(int conj(u) psi ds) / k``; for lossless bodies ``C_abs = 0``.
+    flux ``Im(int conj(u) dudn ds) / k``; for lossless bodies ``C_abs = 0``.
     """
     radius = float(np.max(np.hypot(*(mesh.nodes - mesh.nodes.mean(axis=0)).T)))
     n_ang = int(max(64, 2 * int(abs(k) * radius) + 64))
     n_ang += n_ang % 2
     grid = np.arange(n_ang) * 360.0 / n_ang
-    ff = far_field(mesh, k, u, psi, grid)
+    ff = far_field(mesh, k, u, dudn, grid)
     c_s = np.sum(np.abs(ff) ** 2, axis=0) * (2 * np.pi / n_ang)
-    fwd = far_field_each(mesh, k, u, psi, np.asarray(from_deg, dtype=float) + 180.0)
+    fwd = far_field_each(mesh, k, u, dudn, np.asarray(from_deg, dtype=float) + 180.0)
     c_ext = -2 * np.sqrt(2 * np.pi / abs(k)) * np.real(np.exp(-0.25j * np.pi) * fwd)
     # Time-averaged intensity for exp(+j w t) is -Im(conj(u) grad u) / k in
     # units of the incident plane wave's; the power flowing into the body
-    # through its surface (n out of the body) is then +Im(int conj(u) psi ds) / k.
-    c_abs = np.imag(np.sum(np.conj(u) * psi * mesh.weights[:, None], axis=0)) / abs(k)
+    # through its surface (n out of the body) is then +Im(int conj(u) dudn ds) / k.
+    c_abs = np.imag(np.sum(np.conj(u) * dudn * mesh.weights[:, None], axis=0)) / abs(k)
     scale = np.maximum(np.abs(c_ext), 1e-300)
     residual = np.abs(c_ext - c_s - c_abs) / scale
+    return CrossSections(np.asarray(from_deg, dtype=float), c_s, c_ext, c_ext - c_s, c_abs, residual)
+
+
+def surface_quantities(
+    field: FieldKind, frequency_hz: float, u: ComplexArray, dudn: ComplexArray, density_kg_m3: float
+) -> dict[str, ComplexArray]:
+    """The trade's surface quantities for a unit-amplitude incident wave, keyed by name and unit.
+
+    TM (u = E_z, 1 V/m): surface current ``J_z = (du/dn) / (j w mu0)`` in A/m.
+    TE (u = H_z, 1 A/m): surface current along the contour ``J_t = -H_z`` in A/m.
+    Sound (u = p, 1 Pa): surface pressure ``p`` in Pa and the normal particle
+    velocity ``v_n = -(dp/dn) / (j w rho)`` in m/s (out of the body).
+    """
+    omega = 2 * math.pi * frequency_hz
+    if field == "tm":
+        return {"current_z_a_per_m": dudn / (1j * omega * MU0_H_M)}
+    if field == "te":
+        return {"current_t_a_per_m": -u}
     return {
-        "scattering_width_m": c_s,
-        "extinction_width_m": c_ext,
-        "absorption_width_m": c_ext - c_s,
-        "surface_absorption_m": c_abs,
-        "optical_residual": residual,
+        "pressure_pa": u,
+        "normal_velocity_m_per_s": -dudn / (1j * omega * density_kg_m3),
     }

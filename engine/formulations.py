@@ -1,178 +1,219 @@
-"""Resonance-free boundary integral equations for impenetrable bodies.
+"""Boundary equations of each kind of boundary, as objects.
 
 Glossary
 --------
-u, psi
-    The total field on the boundary and its normal derivative (normal out
-    of the body, into the surrounding medium).
-Green's representation
-    For x outside every body, ``u(x) = u_inc(x) + int (u dG/dn_y - G psi) ds_y``.
-    Its boundary limits (jump relations in ``operators``) give
-    ``(E1)  u/2 - D u + S psi = u_inc`` and
-    ``(E2)  psi/2 + D' psi - T u = du_inc/dn``.
-boundary conditions
-    ``dirichlet``: u = 0 (TM PEC, sound-soft); unknown psi.
-    ``neumann``: psi = 0 (TE PEC, sound-hard); unknown u.
-    ``robin``: psi = lam u (impedance surfaces); unknown u.
-combined equations
-    Dirichlet rows use ``E2 + beta E1`` (the direct combined-field
-    equation), the others ``E1 + alpha E2`` (Burton & Miller, Proc. R.
-    Soc. A 323, 1971). A non-zero solution of the homogeneous system would
-    give an interior field with ``dw/dn = -beta w`` (or ``w = -alpha dw/dn``)
-    on the boundary; Green's first identity makes its imaginary part force
-    ``w = 0`` whenever the coupling is not real, so no frequency is
-    resonant. The circle's interior eigenfrequencies (zeros of J0 and J1')
-    are checked in the tests.
+u, dudn
+    The total field on the boundary and its normal derivative along the
+    contour's normal (out of the body, into the surrounding region).
+region equations
+    For a region R with wavenumber k_R bounded by contours whose normals
+    point into R (sign s = +1) or out of it (s = -1), Green's
+    representation ``u = u_inc + sum s int (u dG/dn_y - G dudn) ds`` (the
+    incident wave only in the unbounded region) has the boundary limits
+    (jump relations in ``operators``)
+    ``(E1)  u/2 - sum s (D u - S dudn) = u_inc`` and
+    ``(E2)  dudn/2 - sum s (T u - D' dudn) = du_inc/dn``
+    at every node of R's boundary, with R's operators.
+formulation
+    What one boundary contributes to the system: how many unknowns it
+    carries per node, how those unknowns give the traces ``u`` and
+    ``dudn`` seen from each side (``SideMap.u``, ``SideMap.dudn``), and
+    with which weights each side's ``E1`` and ``E2`` enter the node's rows
+    (``SideMap.e1``, ``SideMap.e2``). The assembler in ``system`` needs
+    nothing else; an interface between two media carries two unknowns and
+    two sides.
+combined equations (impenetrable bodies, one side)
+    ``dirichlet`` (u = 0: TM PEC, sound-soft) uses ``E2 + beta E1`` (the
+    direct combined-field equation) for the unknown ``dudn / |k|``;
+    ``neumann`` (dudn = 0: TE PEC, sound-hard) and ``robin`` (dudn = lam u:
+    impedance surfaces) use ``E1 + alpha E2`` (Burton & Miller, Proc. R.
+    Soc. A 323, 1971) for the unknown ``u``. A non-zero solution of the
+    homogeneous system would give an interior field with
+    ``dw/dn = -beta w`` (or ``w = -alpha dw/dn``) on the boundary; Green's
+    first identity makes its imaginary part force ``w = 0`` whenever the
+    coupling is not real, so no frequency is resonant. The circle's
+    interior eigenfrequencies (zeros of J0 and J1') are checked in the tests.
+impedance (Leontovich / normal acoustic impedance)
+    ``du/dn = lam u`` with ``lam = j k / z`` (TM and sound) or ``j k z``
+    (TE), z normalised to the surrounding medium, n out of the body,
+    exp(+j w t); a passive surface has Re z >= 0.
 """
 
 from __future__ import annotations
 
+from abc import ABC, abstractmethod
 from dataclasses import dataclass
-from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
 
-from .operators import Operators
+from .problem import FieldKind, ProblemError, Scatterer
 
 __all__ = [
-    "DIRICHLET",
-    "NEUMANN",
-    "ROBIN",
-    "SurfaceConditions",
+    "Dirichlet",
+    "Formulation",
+    "Neumann",
+    "Robin",
+    "SideMap",
     "coupling_constants",
-    "needed_operators",
-    "right_hand_sides",
-    "surface_traces",
-    "system_matrix",
+    "formulation_for",
+    "robin_factor",
 ]
 
 ComplexArray = NDArray[np.complex128]
-
-DIRICHLET, NEUMANN, ROBIN = 0, 1, 2
+FloatArray = NDArray[np.float64]
 
 
 @dataclass(frozen=True)
-class SurfaceConditions:
-    """Boundary condition of every node: a kind code and the Robin factor ``lam``.
+class SideMap:
+    """How ``m`` unknowns per node enter the equations of one side's region.
 
-    ``psi = lam * u`` on Robin nodes; ``lam`` is ignored elsewhere.
-    ``panel_length`` (the length of each node's panel) lets the rows of
-    the Burton-Miller equations be balanced on the tiny panels next to
-    corners, where ``alpha T`` grows like 1 / length.
+    All arrays have shape ``(n_nodes, m)``: ``u[i, a]`` and ``dudn[i, a]``
+    are the traces at node ``i`` per unit of its unknown ``a``; ``e1[i, r]``
+    and ``e2[i, r]`` weigh the region's equations E1 and E2 at node ``i`` in
+    the node's row ``r``.
     """
 
-    kind: NDArray[np.int64]
-    lam: ComplexArray
-    panel_length: NDArray[np.float64] | None = None
+    u: ComplexArray
+    dudn: ComplexArray
+    e1: ComplexArray
+    e2: ComplexArray
 
 
 def coupling_constants(k: complex) -> tuple[complex, complex]:
     """``(alpha, beta)`` for the combined equations; both have non-zero imaginary parts.
 
-    The scaling with ``k`` balances the two equations: ``psi ~ k u``.
+    The scaling with ``k`` balances the two equations: ``dudn ~ k u``.
+
+    Examples
+    --------
+    >>> coupling_constants(2.0)
+    (-0.5j, -2j)
     """
     kr = abs(k)
     return (-1j / kr, -1j * kr)
 
 
-def _columns(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArray]:
-    """How each unknown maps to (u, psi) at its node.
+def robin_factor(field: FieldKind, k: complex, impedance: complex) -> complex:
+    """``lam`` of the impedance condition ``du/dn = lam u`` (n out of the body, exp(+j w t)).
 
-    Dirichlet unknowns are ``psi / |k|`` so that every unknown has the
-    size of the field itself; this balances the columns of mixed scenes.
+    TM and sound: ``lam = j k / z``; TE: ``lam = j k z``; ``z`` normalised
+    to the surrounding medium's wave impedance.
+
+    Examples
+    --------
+    >>> robin_factor("tm", 2.0, 1.0), robin_factor("te", 2.0, 0.5)
+    (2j, 1j)
     """
-    is_d = cond.kind == DIRICHLET
-    p_u = np.where(is_d, 0.0, 1.0).astype(complex)
-    p_psi = np.where(is_d, abs(k), np.where(cond.kind == ROBIN, cond.lam, 0.0)).astype(complex)
-    return p_u, p_psi
+    z = complex(impedance)
+    return 1j * k * z if field == "te" else 1j * k / z
 
 
-def _rows(cond: SurfaceConditions, k: complex) -> tuple[ComplexArray, ComplexArray]:
-    """Row weights (pure scalings of each equation, so the solution is unchanged).
+class Formulation(ABC):
+    """The boundary equations of one contour (see the module glossary)."""
 
-    Dirichlet rows are divided by ``|k|``. Burton-Miller rows on a panel of
-    length ``h`` are multiplied by ``h / (h + 1/|k|)``: the hypersingular
-    part scales like ``1/h`` there, and this keeps the system's condition
-    number near its smooth-body value however deep the corner refinement
-    (measured on the square: 3.6e12 -> 7e4 at 32 levels).
+    #: Name used in reports.
+    name: str = "formulation"
+    #: Unknowns (and rows) per node.
+    unknowns_per_node: int = 1
+    #: True when the contour is an interface with a second, inner region.
+    has_inside: bool = False
+
+    @abstractmethod
+    def outside(self, k: complex, panel_length: FloatArray) -> SideMap:
+        """Map for the region the normal points into, wavenumber ``k``.
+
+        ``panel_length`` is the length of each node's panel.
+        """
+
+    def inside(self, k: complex, panel_length: FloatArray) -> SideMap:
+        """Map for the region behind the contour (interfaces only)."""
+        raise NotImplementedError(f"{self.name} has no inner region")
+
+
+def _column(values: FloatArray | ComplexArray) -> ComplexArray:
+    return np.asarray(values, dtype=complex).reshape(-1, 1)
+
+
+def _balance(k: complex, panel_length: FloatArray) -> FloatArray:
+    """Row balance ``h / (h + 1/|k|)`` of the Burton-Miller rows on a panel of length ``h``.
+
+    The hypersingular part scales like ``1/h`` on the tiny panels next to
+    corners; this pure scaling of each row keeps the condition number near
+    its smooth-body value however deep the corner refinement (measured on
+    the square: 3.6e12 -> 7e4 at 32 levels).
     """
-    alpha, beta = coupling_constants(k)
-    is_d = cond.kind == DIRICHLET
-    balance = 1.0 if cond.panel_length is None else cond.panel_length / (cond.panel_length + 1.0 / abs(k))
-    c1 = np.where(is_d, beta / abs(k), balance).astype(complex)
-    c2 = np.where(is_d, 1.0 / abs(k), alpha * balance).astype(complex)
-    return c1, c2
+    return panel_length / (panel_length + 1.0 / abs(k))
 
 
-def system_matrix(ops: Operators, cond: SurfaceConditions) -> ComplexArray:
-    """The combined system ``A x = b`` for the unknown of every node.
+class Dirichlet(Formulation):
+    """``u = 0`` (TM PEC, sound-soft): unknown ``dudn / |k|``, rows ``(E2 + beta E1) / |k|``.
 
-    ``A = c1 [(I/2 - D) P_u + S P_psi] + c2 [(I/2 + D') P_psi - T P_u]`` with
-    the row weights ``c1, c2`` and column maps ``P_u, P_psi``. It is built in
-    one compiled pass, in place of one of the operator matrices (which the
-    caller must not use afterwards).
+    The unknown is scaled by ``|k|`` so that every unknown has the size of
+    the field itself, which balances the columns of mixed scenes.
     """
-    p_u, p_psi = _columns(cond, ops.k)
-    c1, c2 = _rows(cond, ops.k)
-    n = p_u.size
-    mats = [ops.S, ops.D, ops.Dp, ops.T]
-    out = next(m for m in mats if m is not None)
-    empty = np.zeros((0, 0), dtype=complex)
-    _combine()(
-        out,
-        *(m if m is not None else empty for m in mats),
-        c1, c2, p_u, p_psi,
-    )
-    out[np.diag_indices(n)] += 0.5 * (c1 * p_u + c2 * p_psi)
-    return out
+
+    name = "dirichlet"
+
+    def outside(self, k: complex, panel_length: FloatArray) -> SideMap:
+        n = panel_length.size
+        _, beta = coupling_constants(k)
+        kr = abs(k)
+        return SideMap(
+            u=np.zeros((n, 1), dtype=complex),
+            dudn=np.full((n, 1), kr, dtype=complex),
+            e1=np.full((n, 1), beta / kr, dtype=complex),
+            e2=np.full((n, 1), 1.0 / kr, dtype=complex),
+        )
 
 
-@lru_cache(maxsize=1)
-def _combine():
-    import numba
+class Neumann(Formulation):
+    """``dudn = 0`` (TE PEC, sound-hard): unknown ``u``, balanced rows ``E1 + alpha E2``."""
 
-    @numba.njit(parallel=True)
-    def run(out, s_mat, d_mat, dp_mat, t_mat, c1, c2, p_u, p_psi):
-        n = out.shape[0]
-        has_s, has_d, has_dp, has_t = s_mat.size > 0, d_mat.size > 0, dp_mat.size > 0, t_mat.size > 0
-        for i in numba.prange(n):
-            for j in range(n):
-                acc1 = 0j
-                acc2 = 0j
-                if has_s:
-                    acc1 += s_mat[i, j] * p_psi[j]
-                if has_d:
-                    acc1 -= d_mat[i, j] * p_u[j]
-                if has_dp:
-                    acc2 += dp_mat[i, j] * p_psi[j]
-                if has_t:
-                    acc2 -= t_mat[i, j] * p_u[j]
-                out[i, j] = c1[i] * acc1 + c2[i] * acc2
+    name = "neumann"
 
-    return run
+    def _factor(self, k: complex) -> complex:
+        return 0.0
+
+    def outside(self, k: complex, panel_length: FloatArray) -> SideMap:
+        n = panel_length.size
+        alpha, _ = coupling_constants(k)
+        balance = _balance(k, panel_length)
+        return SideMap(
+            u=np.ones((n, 1), dtype=complex),
+            dudn=np.full((n, 1), self._factor(k), dtype=complex),
+            e1=_column(balance),
+            e2=_column(alpha * balance),
+        )
 
 
-def right_hand_sides(
-    cond: SurfaceConditions, k: complex, u_inc: ComplexArray, dn_inc: ComplexArray
-) -> ComplexArray:
-    """Right-hand sides (one column per incident wave) matching ``system_matrix``."""
-    c1, c2 = _rows(cond, k)
-    return c1[:, None] * u_inc + c2[:, None] * dn_inc
+class Robin(Neumann):
+    """``dudn = lam u`` (impedance surfaces): unknown ``u``, rows as for ``Neumann``."""
+
+    name = "robin"
+
+    def __init__(self, lam: complex) -> None:
+        self.lam = complex(lam)
+
+    def _factor(self, k: complex) -> complex:
+        return self.lam
 
 
-def surface_traces(
-    cond: SurfaceConditions, k: complex, x: ComplexArray
-) -> tuple[ComplexArray, ComplexArray]:
-    """Total field ``u`` and normal derivative ``psi`` on the boundary from the unknowns."""
-    p_u, p_psi = _columns(cond, k)
-    return p_u[:, None] * x, p_psi[:, None] * x
+def formulation_for(field: FieldKind, scatterer: Scatterer, k: complex) -> Formulation:
+    """The formulation of a body's boundary at wavenumber ``k`` of the surrounding medium.
 
-
-def needed_operators(cond: SurfaceConditions) -> dict[str, bool]:
-    """Which operators the system needs (keyword arguments of ``assemble_operators``)."""
-    p_u, p_psi = _columns(cond, 1.0)
-    has_u = bool(np.any(p_u != 0))
-    has_psi = bool(np.any(p_psi != 0))
-    # S is always needed: for psi unknowns directly, for u unknowns inside T.
-    return {"need_s": True, "need_d": has_u, "need_dp": has_psi, "need_t": has_u}
+    Raises
+    ------
+    ProblemError
+        If the boundary kind does not exist for ``field``.
+    """
+    kind = scatterer.boundary
+    if kind == "impedance":
+        if scatterer.impedance is None:
+            raise ProblemError(f"body {scatterer.name!r}: impedance boundary without an impedance")
+        return Robin(robin_factor(field, k, scatterer.impedance))
+    if kind == "hard" or (kind == "pec" and field == "te"):
+        return Neumann()
+    if kind == "soft" or (kind == "pec" and field == "tm"):
+        return Dirichlet()
+    raise ProblemError(f"body {scatterer.name!r}: boundary {kind!r} is not available for {field}")

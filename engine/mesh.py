@@ -166,6 +166,21 @@ class PanelMesh:
             nxt[idx] = np.roll(idx, -1)
         return prev, nxt
 
+    def subset(self, contours: Sequence[int]) -> PanelMesh:
+        """The mesh of the given contours only, in the given order (renumbered from 0)."""
+        order = np.concatenate([np.flatnonzero(self.contour_of_panel == c) for c in contours])
+        renumber = {int(c): i for i, c in enumerate(contours)}
+        return PanelMesh(
+            self.p,
+            self.segments,
+            self.seg_of_panel[order],
+            self.t0[order],
+            self.t1[order],
+            np.array([renumber[int(c)] for c in self.contour_of_panel[order]], dtype=np.int64),
+            self.body_of_contour[np.asarray(contours, dtype=np.int64)],
+            self.corner_at_start[order],
+        )
+
     def split(self, panels: Sequence[int]) -> PanelMesh:
         """A new mesh with the given panels halved in parameter."""
         marked = np.zeros(self.n_panels, dtype=bool)
@@ -327,7 +342,7 @@ def build_panels(
             else:
                 out.append(pc)
             if len(out) > MAX_PANELS:
-                raise GeometryError("the mesh would need more than 200000 panels; check units")
+                raise GeometryError(f"the mesh would need more than {MAX_PANELS} panels; check units")
         contours[ci] = out
 
     mesh = _to_mesh(p, segments, contours, boundaries)

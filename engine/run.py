@@ -1,406 +1,227 @@
-"""Solve a scene: mesh, assemble, factorise once per frequency, refine until accurate.
+"""Solve a problem: per frequency, mesh, solve, refine until accurate, evaluate.
 
-Glossary
---------
-estimated error
-    The a-posteriori estimate: on each panel, the size of the last two
-    Legendre coefficients of the boundary unknown, times the panel length,
-    relative to the unknown's integral over the whole boundary, summed; once
-    a refinement has happened, the smaller of that and the far-field change
-    under the last refinement; never less than the optical-theorem residual.
-    The fewest panels carrying MARK_FRACTION of the estimate are halved and the system solved
-    again, at most ``max_refinements`` times.
+One frequency, step by step::
+
+    mesh.build_panels            panels sized for the wavelength and the geometry
+    formulations.formulation_for one formulation per contour
+    system.BoundarySystem        the boundary equations on the mesh
+    solve.solve_boundary         assemble, factorise once, all incident waves
+    fields.far_field, ...        far field and cross sections
+    adapt.refine_until_accurate  estimate, mark, refine, repeat
+    nearfield                    field maps and probes, if asked for
 """
 
 from __future__ import annotations
 
-import logging
-import math
 import time
 import warnings
 from collections.abc import Callable
-from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
-from sectionwave.importers.errors import SectionwaveWarning
 
-from .case import MU0_H_M, CaseError, Scene
-from .fields import cross_sections, echo_width, far_field, far_field_each, line_source_wave, plane_wave
-from .formulations import (
-    DIRICHLET,
-    NEUMANN,
-    ROBIN,
-    SurfaceConditions,
-    needed_operators,
-    right_hand_sides,
-    surface_traces,
-    system_matrix,
+from .adapt import AccuracyWarning, SolvePass, refine_until_accurate
+from .fields import cross_sections, far_field, far_field_each, incident_field
+from .formulations import formulation_for
+from .mesh import BoundaryContour, PanelMesh, build_panels
+from .problem import Problem
+from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings
+from .solve import (
+    CONDITION_WARN,
+    DenseLU,
+    IllConditionedWarning,
+    LinearSolver,
+    fits_in_memory,
+    solve_boundary,
 )
-from .mesh import BoundaryContour, PanelMesh, build_panels, regrade
-from .operators import assemble_operators
-from .solve import ProblemTooLargeError, check_memory, factorise
+from .system import BoundarySystem
 
-__all__ = [
-    "AccuracyWarning",
-    "FrequencyResult",
-    "IllConditionedWarning",
-    "RunResult",
-    "echo_width_table",
-    "incident_values",
-    "panel_wavelengths",
-    "physical_surface_quantities",
-    "solve_scene",
-]
+__all__ = ["METHOD", "panel_wavelengths", "solve_problem"]
 
-log = logging.getLogger(__name__)
-ComplexArray = NDArray[np.complex128]
-
-#: Condition numbers above this are flagged (digits lost ~ log10(cond)).
-CONDITION_WARN = 1e10
-#: Doerfler marking: refine the fewest panels that carry this share of the estimate.
-MARK_FRACTION = 0.8
+#: What the engine does, in words, for reports.
+METHOD = (
+    "Nystrom, kernel-split product integration on Gauss-Legendre panels; "
+    "combined-field (Dirichlet) and Burton-Miller (Neumann, impedance) equations; dense LU"
+)
 
 
-class AccuracyWarning(SectionwaveWarning):
-    """The requested tolerance was not reached within the refinement budget."""
+def panel_wavelengths(problem: Problem) -> float:
+    """Longest panel in wavelengths: the problem's setting, or the measured default.
+
+    With 16 nodes, panels of one wavelength reach 1e-10 on smooth PEC
+    bodies; impedance surfaces (whose equation differentiates the density)
+    need half that for 1e-8 (measured against the circle's series).
+    """
+    if problem.solver.max_panel_wavelengths is not None:
+        return problem.solver.max_panel_wavelengths
+    has_impedance = any(s.boundary == "impedance" for s in problem.scatterers)
+    return 0.5 if has_impedance else 1.0
 
 
-class IllConditionedWarning(SectionwaveWarning):
-    """The system matrix is badly conditioned; digits may be lost."""
-
-
-@dataclass
-class FrequencyResult:
-    """Everything computed at one frequency."""
-
-    frequency_hz: float
-    k: float
-    wavelength_m: float
-    mesh: PanelMesh
-    conditions: SurfaceConditions
-    columns: list[dict[str, Any]]
-    u: ComplexArray
-    psi: ComplexArray
-    angles_deg: NDArray[np.float64]
-    farfield: ComplexArray
-    monostatic: ComplexArray
-    widths: dict[str, NDArray[np.float64]]
-    condition: float
-    estimated_error: float
-    refinement_change: float | None
-    refinements: int
-    timings_s: dict[str, float]
-    warnings: list[str] = field(default_factory=list)
-    near: dict[str, Any] | None = None
-
-
-@dataclass
-class RunResult:
-    """A solved scene: one ``FrequencyResult`` per frequency."""
-
-    scene: Scene
-    frequencies: list[FrequencyResult]
-    elapsed_s: float
-
-
-def _incident_columns(scene: Scene) -> list[dict[str, Any]]:
-    cols: list[dict[str, Any]] = []
-    for idx, inc in enumerate(scene.incidents):
-        if inc.kind == "plane":
-            for a in inc.from_deg:
-                cols.append({"incident": inc.name, "index": idx, "kind": "plane", "from_deg": a})
-        else:
-            cols.append({"incident": inc.name, "index": idx, "kind": "line", "position_m": inc.position_m, "from_deg": math.nan})
-    return cols
-
-
-def incident_values(
-    columns: list[dict[str, Any]], points: NDArray[np.float64], normals: NDArray[np.float64], k: float
-) -> tuple[ComplexArray, ComplexArray]:
-    """Incident field and its normal derivative at ``points``, one column per incident wave."""
-    u = np.empty((points.shape[0], len(columns)), dtype=complex)
-    dn = np.empty_like(u)
-    plane = [i for i, c in enumerate(columns) if c["kind"] == "plane"]
-    if plane:
-        u[:, plane], dn[:, plane] = plane_wave(points, normals, k, np.array([columns[i]["from_deg"] for i in plane]))
-    for i, c in enumerate(columns):
-        if c["kind"] == "line":
-            a, b = line_source_wave(points, normals, k, np.array(c["position_m"]))
-            u[:, [i]], dn[:, [i]] = a, b
-    return u, dn
-
-
-def _conditions(scene: Scene, mesh: PanelMesh, k: float) -> SurfaceConditions:
-    body = mesh.body_of_node
-    kind = np.empty(mesh.n_nodes, dtype=np.int64)
-    lam = np.zeros(mesh.n_nodes, dtype=complex)
-    for b, spec in enumerate(scene.bodies):
-        sel = body == b
-        if spec.boundary == "impedance":
-            z = complex(spec.impedance or 0)
-            # Leontovich / normal-impedance condition du/dn = lam u (n out of the
-            # body, exp(+j w t)): TM and sound: lam = j k / z; TE: lam = j k z.
-            kind[sel] = ROBIN
-            lam[sel] = 1j * k * z if scene.field == "te" else 1j * k / z
-        elif spec.boundary == "hard" or (spec.boundary == "pec" and scene.field == "te"):
-            kind[sel] = NEUMANN
-        else:
-            kind[sel] = DIRICHLET
-    return SurfaceConditions(kind, lam, np.repeat(mesh.lengths, mesh.p))
-
-
-def _fits(n_unknowns: int) -> bool:
-    try:
-        check_memory(n_unknowns)
-    except ProblemTooLargeError:
-        return False
-    return True
-
-
-def _panel_estimates(mesh: PanelMesh, x: ComplexArray) -> NDArray[np.float64]:
-    """Relative error estimate of every panel, worst over the right-hand sides."""
-    norm = np.sum(np.abs(x) * mesh.weights[:, None], axis=0)
-    norm = np.where(norm > 0, norm, 1.0)
-    est = np.zeros(mesh.n_panels)
-    for m in range(x.shape[1]):
-        est = np.maximum(est, mesh.legendre_tails(x[:, m]) * mesh.lengths / norm[m])
-    return est
-
-
-def _solve_once(scene: Scene, mesh: PanelMesh, k: float, columns: list[dict[str, Any]]):
-    t0 = time.perf_counter()
-    check_memory(mesh.n_nodes)
-    cond = _conditions(scene, mesh, k)
-    ops = assemble_operators(mesh, k, **needed_operators(cond))
-    a = system_matrix(ops, cond)
-    del ops
-    t1 = time.perf_counter()
-    fac = factorise(a)
-    del a
-    u_inc, dn_inc = incident_values(columns, mesh.nodes, mesh.normals, k)
-    x = fac.solve(right_hand_sides(cond, k, u_inc, dn_inc))
-    t2 = time.perf_counter()
-    return cond, x, fac.condition, {"assemble_s": t1 - t0, "factorise_and_solve_s": t2 - t1}
-
-
-def solve_scene(scene: Scene, *, progress: Callable[[str], None] | None = None) -> RunResult:
-    """Solve every frequency of ``scene``.
+def solve_problem(
+    problem: Problem,
+    *,
+    progress: Callable[[str], None] | None = None,
+    solver: LinearSolver | None = None,
+) -> RunResult:
+    """Solve every frequency of ``problem``.
 
     Parameters
     ----------
-    scene
-        A validated case (``load_case``).
+    problem
+        The physics problem.
     progress
         Called with a short message as each frequency starts.
+    solver
+        The linear solver (default dense LU).
 
     Returns
     -------
     RunResult
     """
     start = time.perf_counter()
-    columns = _incident_columns(scene)
+    solver = solver or DenseLU()
     results = []
-    for n, freq in enumerate(scene.frequencies_hz):
+    for n, freq in enumerate(problem.frequencies_hz):
         if progress is not None:
-            progress(f"frequency {n + 1}/{len(scene.frequencies_hz)}: {freq:.6g} Hz")
-        results.append(_solve_frequency(scene, freq, columns))
-    return RunResult(scene, results, time.perf_counter() - start)
+            progress(f"frequency {n + 1}/{len(problem.frequencies_hz)}: {freq:.6g} Hz")
+        results.append(_solve_frequency(problem, freq, solver))
+    s = problem.solver
+    settings = RunSettings(s.tolerance, s.nodes_per_panel, panel_wavelengths(problem), s.max_refinements, METHOD)
+    return RunResult(problem, results, settings, time.perf_counter() - start)
 
 
-def _solve_frequency(scene: Scene, freq: float, columns: list[dict[str, Any]]) -> FrequencyResult:
-    k = scene.wavenumber(freq)
-    lam = scene.wavelength(freq)
-    t_mesh = time.perf_counter()
-    boundaries = [BoundaryContour(b.body.outer, i, lam) for i, b in enumerate(scene.bodies)]
-    notes: list[str] = []
-    corner_tol = scene.tolerance
+def _system(problem: Problem, mesh: PanelMesh, k: float) -> BoundarySystem:
+    formulations = [
+        formulation_for(problem.field, problem.scatterers[int(b)], k) for b in mesh.body_of_contour
+    ]
+    return BoundarySystem(mesh, formulations, k)
+
+
+def _fits(problem: Problem, solver: LinearSolver, k: float) -> Callable[[PanelMesh], bool]:
+    def fits(mesh: PanelMesh) -> bool:
+        return fits_in_memory(solver.memory_bytes(_system(problem, mesh, k).n_unknowns))
+
+    return fits
+
+
+def _first_mesh(problem: Problem, freq: float, fits: Callable[[PanelMesh], bool]) -> tuple[PanelMesh, list[str]]:
+    """The first mesh; when deep corner refinement would not fit, corners are refined less."""
+    lam = problem.wavelength(freq)
+    boundaries = [BoundaryContour(s.body.outer, i, lam) for i, s in enumerate(problem.scatterers)]
+    tol = problem.solver.tolerance
+    corner_tol = tol
     while True:
         mesh = build_panels(
             boundaries,
-            p=scene.nodes_per_panel,
-            tolerance=scene.tolerance,
-            max_panel_wavelengths=panel_wavelengths(scene),
+            p=problem.solver.nodes_per_panel,
+            tolerance=tol,
+            max_panel_wavelengths=panel_wavelengths(problem),
             corner_tolerance=corner_tol,
         )
-        if _fits(mesh.n_nodes) or corner_tol >= 1e-2 or not mesh.corner_at_start.any():
+        if fits(mesh) or corner_tol >= 1e-2 or not mesh.corner_at_start.any():
             break
         # Deep corner refinement would not fit in memory: refine the corners
         # less (an answer with an honest error estimate beats a refusal).
         corner_tol *= 10.0
-    if corner_tol > scene.tolerance:
+    notes = []
+    if corner_tol > tol:
         msg = (
             f"at {freq:.6g} Hz the corners were refined for a tolerance of {corner_tol:.0e} "
             f"only, so that the {mesh.n_nodes} unknowns fit in memory"
         )
-        warnings.warn(msg, AccuracyWarning, stacklevel=3)
+        warnings.warn(msg, AccuracyWarning, stacklevel=4)
         notes.append(msg)
-    timings = {
-        "mesh_s": time.perf_counter() - t_mesh,
-        "assemble_s": 0.0,
-        "factorise_and_solve_s": 0.0,
-        "far_field_s": 0.0,
-    }
-    plane_cols = [i for i, c in enumerate(columns) if c["kind"] == "plane"]
-    plane_from = np.array([columns[i]["from_deg"] for i in plane_cols])
-    previous_ff = None
-    change = None
-    widths: dict[str, NDArray[np.float64]] = {}
-    refinements = 0
-    angles = scene.far_field_deg
-    while True:
-        cond, x, condition, t = _solve_once(scene, mesh, k, columns)
-        for key, val in t.items():
-            timings[key] += val
-        u, psi = surface_traces(cond, k, x)
+    return mesh, notes
+
+
+def _solve_frequency(problem: Problem, freq: float, solver: LinearSolver) -> FrequencySolution:
+    k = problem.wavenumber(freq)
+    lam = problem.wavelength(freq)
+    t_mesh = time.perf_counter()
+    fits = _fits(problem, solver, k)
+    mesh, notes = _first_mesh(problem, freq, fits)
+    mesh_s = time.perf_counter() - t_mesh
+    incidents = problem.incidents
+    plane = problem.plane_waves
+    plane_from = np.array([incidents[i].from_deg for i in plane])
+    angles = np.asarray(problem.far_field_deg, dtype=float)
+
+    def evaluate(current: PanelMesh) -> SolvePass:
+        solution = solve_boundary(_system(problem, current, k), incidents, solver=solver)
         t_ff = time.perf_counter()
-        ff = far_field(mesh, k, u, psi, angles)
-        if previous_ff is not None:
-            change = float(np.max(np.abs(ff - previous_ff)) / max(np.max(np.abs(ff)), 1e-300))
-        est = _panel_estimates(mesh, x)
-        tail_estimate = float(np.sum(est))
-        # The far-field change under the last refinement measures the error
-        # of the coarser mesh, so it bounds the final one as well.
-        estimated = tail_estimate if change is None else min(tail_estimate, change)
-        # The optical theorem is necessary, not sufficient: a residual above
-        # the estimate proves the estimate too optimistic.
-        if plane_cols:
-            widths = cross_sections(mesh, k, u[:, plane_cols], psi[:, plane_cols], plane_from)
-            estimated = max(estimated, float(np.max(widths["optical_residual"])))
-        timings["far_field_s"] += time.perf_counter() - t_ff
-        if estimated <= scene.tolerance or refinements >= scene.max_refinements:
-            break
-        # Doerfler marking: the fewest panels carrying MARK_FRACTION of the estimate.
-        order = np.argsort(est)[::-1]
-        count = int(np.searchsorted(np.cumsum(est[order]), MARK_FRACTION * tail_estimate)) + 1
-        bad = order[:count]
-        refined = regrade(mesh.split(sorted(bad.tolist())))
-        if not _fits(refined.n_nodes):
-            msg = (
-                f"at {freq:.6g} Hz refinement stopped at {mesh.n_nodes} unknowns: "
-                f"the next mesh ({refined.n_nodes}) would not fit in memory"
-            )
-            warnings.warn(msg, AccuracyWarning, stacklevel=3)
-            notes.append(msg)
-            break
-        previous_ff = ff
-        refinements += 1
-        log.info("refining %d of %d panels (estimate %.2e)", bad.size, mesh.n_panels, estimated)
-        mesh = refined
+        ff = far_field(current, k, solution.u, solution.dudn, angles)
+        widths = None
+        if plane:
+            widths = cross_sections(current, k, solution.u[:, plane], solution.dudn[:, plane], plane_from)
+        return SolvePass(solution, ff, widths, time.perf_counter() - t_ff)
+
+    adaptive = refine_until_accurate(
+        mesh, evaluate,
+        tolerance=problem.solver.tolerance,
+        max_refinements=problem.solver.max_refinements,
+        fits=fits,
+        where=f"at {freq:.6g} Hz",
+    )
+    mesh = adaptive.mesh
+    solution = adaptive.last.solution
+    u, dudn = solution.u, solution.dudn
+    timings = {"mesh_s": mesh_s, **adaptive.timings_s}
     t_post = time.perf_counter()
-    mono = np.full(len(columns), np.nan + 0j)
-    if plane_cols:
-        mono[plane_cols] = far_field_each(mesh, k, u[:, plane_cols], psi[:, plane_cols], plane_from)
+    mono = np.full(len(incidents), np.nan + 0j)
+    if plane:
+        mono[plane] = far_field_each(mesh, k, u[:, plane], dudn[:, plane], plane_from)
     timings["far_field_s"] += time.perf_counter() - t_post
-    if estimated > scene.tolerance:
-        msg = (
-            f"at {freq:.6g} Hz the estimated error {estimated:.2e} is above the tolerance "
-            f"{scene.tolerance:.1e} after {refinements} refinements"
-            + ("; raise [solver] max_refinements" if refinements >= scene.max_refinements else "")
-        )
-        warnings.warn(msg, AccuracyWarning, stacklevel=3)
-        notes.append(msg)
-    if condition > CONDITION_WARN:
+    notes += adaptive.notes
+    condition = solution.report.condition_estimate
+    if condition is not None and condition > CONDITION_WARN:
         msg = f"at {freq:.6g} Hz the system condition number is {condition:.2e}"
         warnings.warn(msg, IllConditionedWarning, stacklevel=3)
         notes.append(msg)
     near = None
-    if scene.near_field is not None:
+    if problem.near_field is not None:
         t_near = time.perf_counter()
-        near = _near_fields(scene, mesh, k, u, psi, columns)
+        near = _near_fields(problem, mesh, k, u, dudn)
         timings["near_field_s"] = time.perf_counter() - t_near
-    return FrequencyResult(
-        near=near,
+    return FrequencySolution(
         frequency_hz=freq,
-        k=k,
+        wavenumber_rad_per_m=k,
         wavelength_m=lam,
         mesh=mesh,
-        conditions=cond,
-        columns=columns,
+        incidents=incidents,
+        unknowns=solution.report.unknowns,
         u=u,
-        psi=psi,
-        angles_deg=np.asarray(angles, dtype=float),
-        farfield=ff,
+        dudn=dudn,
+        angles_deg=angles,
+        farfield=adaptive.last.farfield,
         monostatic=mono,
-        widths=widths,
-        condition=condition,
-        estimated_error=estimated,
-        refinement_change=change,
-        refinements=refinements,
+        cross_sections=adaptive.last.cross_sections,
+        condition_estimate=condition,
+        estimated_error=adaptive.estimated_error,
+        refinement_change=adaptive.refinement_change,
+        refinements=adaptive.refinements,
         timings_s=timings,
         warnings=notes,
+        near_field=near,
     )
 
 
 def _near_fields(
-    scene: Scene, mesh: PanelMesh, k: float, u: ComplexArray, psi: ComplexArray,
-    columns: list[dict[str, Any]],
-) -> dict[str, Any]:
-    """Fields on the case's grid and at its probes for the selected incident waves."""
+    problem: Problem, mesh: PanelMesh, k: float, u: np.ndarray, dudn: np.ndarray
+) -> NearFieldResult:
+    """Fields on the requested grid and at the probes for the selected incident waves."""
     from .nearfield import field_at_points, field_on_grid
 
-    spec = scene.near_field
-    assert spec is not None
-    if spec.from_deg is None:
-        chosen = list(range(len(columns)))
-    else:
-        chosen = [
-            i for i, c in enumerate(columns)
-            if c["kind"] == "plane" and any(abs(c["from_deg"] - a) < 1e-9 for a in spec.from_deg)
-        ]
-        if not chosen:
-            raise CaseError(
-                f"{scene.source}: [near_field.from_deg] {list(spec.from_deg)} matches no plane-wave "
-                "incidence; use angles listed in [[incident]] from_deg"
-            )
-    cols = [columns[i] for i in chosen]
+    request = problem.near_field
+    assert request is not None
+    chosen = list(request.incidents)
+    waves = [problem.incidents[i] for i in chosen]
 
-    def incident(points: NDArray[np.float64]) -> ComplexArray:
-        return incident_values(cols, points, np.zeros_like(points), k)[0]
+    def incident(points: np.ndarray) -> np.ndarray:
+        return incident_field(waves, points, np.zeros_like(points), k)[0]
 
-    out: dict[str, Any] = {"columns": chosen}
-    if spec.x is not None and spec.y is not None:
-        out["grid"] = field_on_grid(mesh, k, u[:, chosen], psi[:, chosen], incident, spec.x, spec.y)
-        out["x"], out["y"] = spec.x, spec.y
-    if spec.probes is not None:
-        out["probes"] = field_at_points(mesh, k, u[:, chosen], psi[:, chosen], incident, spec.probes)
-        out["probe_points"] = spec.probes
-    return out
-
-
-def panel_wavelengths(scene: Scene) -> float:
-    """Longest panel in wavelengths: the case's setting, or the measured default.
-
-    With 16 nodes, panels of one wavelength reach 1e-10 on smooth PEC
-    bodies; impedance surfaces (whose equation differentiates the density)
-    need half that for 1e-8 (measured against the circle's series).
-    """
-    if scene.max_panel_wavelengths is not None:
-        return scene.max_panel_wavelengths
-    has_impedance = any(b.boundary == "impedance" for b in scene.bodies)
-    return 0.5 if has_impedance else 1.0
-
-
-def physical_surface_quantities(scene: Scene, fr: FrequencyResult) -> dict[str, ComplexArray]:
-    """The trade's surface quantities for a unit-amplitude incident wave.
-
-    TM (u = E_z, 1 V/m): surface current ``J_z = (du/dn) / (j w mu0)`` in A/m.
-    TE (u = H_z, 1 A/m): surface current along the contour ``J_t = -H_z`` in A/m.
-    Sound (u = p, 1 Pa): surface pressure ``p`` in Pa and the normal particle
-    velocity ``v_n = -(dp/dn) / (j w rho)`` in m/s (out of the body).
-    """
-    omega = 2 * math.pi * fr.frequency_hz
-    if scene.field == "tm":
-        return {"current_z_a_per_m": fr.psi / (1j * omega * MU0_H_M)}
-    if scene.field == "te":
-        return {"current_t_a_per_m": -fr.u}
-    return {
-        "pressure_pa": fr.u,
-        "normal_velocity_m_per_s": -fr.psi / (1j * omega * scene.density_kg_m3),
-    }
-
-
-def echo_width_table(fr: FrequencyResult) -> dict[str, NDArray[np.float64]]:
-    """Echo width of the bistatic far field at ``fr``, keyed by unit."""
-    return echo_width(fr.farfield, fr.wavelength_m)
+    grid = probes = None
+    if request.x_m is not None and request.y_m is not None:
+        grid = FieldSamples(**field_on_grid(mesh, k, u[:, chosen], dudn[:, chosen], incident, request.x_m, request.y_m))
+    if request.probes_m is not None:
+        probes = FieldSamples(**field_at_points(mesh, k, u[:, chosen], dudn[:, chosen], incident, request.probes_m))
+    return NearFieldResult(tuple(chosen), grid, request.x_m, request.y_m, probes, request.probes_m)

@@ -1,28 +1,55 @@
-"""Dense LU solution with memory checks and a condition estimate.
+"""Solve the boundary system for every incident wave: the solver seam.
 
-One factorisation serves every right-hand side (all incidence angles of
-one frequency). The memory needed is estimated before any matrix is
-allocated, and a problem that would not fit is refused with the estimate
-in the message rather than left to swap.
+Glossary
+--------
+linear solver
+    Anything with ``name``, ``memory_bytes(n_unknowns)`` and
+    ``prepare(system) -> PreparedSolver`` (see ``LinearSolver``). A prepared
+    solver solves for many right-hand sides and reports its condition
+    estimate. Dense LU (``DenseLU``) is the first implementation: one
+    factorisation serves every incident wave of a frequency.
+memory plan
+    The bytes a solve needs, estimated before anything is allocated; a
+    problem that would not fit is refused with the estimate in the
+    message rather than left to swap.
+
+``solve_boundary`` is the one public call that solves a boundary system
+for a set of incident waves and reports what it cost.
 """
 
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Protocol
 
 import numpy as np
 import scipy.linalg as la
 from numpy.typing import NDArray
-from sectionwave.importers.errors import SectionwaveError
+from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
+
+from .fields import incident_field
+from .problem import IncidentWave
+from .system import BoundarySystem
 
 __all__ = [
+    "CONDITION_WARN",
     "MATRICES_IN_FLIGHT",
-    "ProblemTooLargeError",
+    "BoundarySolution",
+    "DenseLU",
     "Factorisation",
+    "IllConditionedWarning",
+    "LinearSolver",
+    "PreparedSolver",
+    "ProblemTooLargeError",
+    "SolveReport",
     "available_memory_bytes",
     "check_memory",
     "factorise",
+    "fits_in_memory",
+    "solve_boundary",
 ]
 
 ComplexArray = NDArray[np.complex128]
@@ -32,10 +59,16 @@ ComplexArray = NDArray[np.complex128]
 MATRICES_IN_FLIGHT = 7
 #: Fraction of the available memory a solve may plan to use.
 MEMORY_FRACTION = 0.8
+#: Condition numbers above this are flagged (digits lost ~ log10(cond)).
+CONDITION_WARN = 1e10
 
 
 class ProblemTooLargeError(SectionwaveError, MemoryError):
-    """The dense system would not fit in memory."""
+    """The system would not fit in memory."""
+
+
+class IllConditionedWarning(SectionwaveWarning):
+    """The system matrix is badly conditioned; digits may be lost."""
 
 
 def available_memory_bytes() -> int:
@@ -63,6 +96,11 @@ def available_memory_bytes() -> int:
     return int(avail)
 
 
+def fits_in_memory(n_bytes: int) -> bool:
+    """True when ``n_bytes`` fit in the share of the available memory a solve may use."""
+    return n_bytes <= MEMORY_FRACTION * available_memory_bytes()
+
+
 def check_memory(n_unknowns: int, *, matrices: int = MATRICES_IN_FLIGHT) -> int:
     """Estimate the bytes a dense solve of ``n_unknowns`` needs; refuse if too many.
 
@@ -77,7 +115,7 @@ def check_memory(n_unknowns: int, *, matrices: int = MATRICES_IN_FLIGHT) -> int:
         raise ProblemTooLargeError(
             f"the dense solve needs about {need / 2**30:.1f} GiB for {n_unknowns} unknowns "
             f"({matrices} complex matrices of 16 N^2 bytes) but {avail / 2**30:.1f} GiB are "
-            "available; lower the frequency, loosen [solver] tolerance, or split the scene"
+            "available; lower the frequency, loosen the tolerance, or split the scene"
         )
     return need
 
@@ -103,3 +141,136 @@ def factorise(matrix: ComplexArray, *, overwrite: bool = True) -> Factorisation:
     rcond, info = gecon(lu, anorm, norm="1")
     condition = float(1.0 / rcond) if rcond > 0 else float("inf")
     return Factorisation(lu, piv, condition)
+
+
+class PreparedSolver(Protocol):
+    """A system made ready to solve (factorised, or preconditioned)."""
+
+    condition_estimate: float | None
+    #: Seconds spent preparing, by stage (``assemble_s``, ``factorise_s``, ...).
+    timings_s: dict[str, float]
+
+    def solve(self, rhs: ComplexArray) -> ComplexArray:
+        """Unknowns for each column of ``rhs``."""
+        ...
+
+
+class LinearSolver(Protocol):
+    """A way to solve boundary systems (dense LU today; an iterative fast solver may join it)."""
+
+    name: str
+
+    def memory_bytes(self, n_unknowns: int) -> int:
+        """Bytes a solve of ``n_unknowns`` needs at its peak (no allocation)."""
+        ...
+
+    def prepare(self, system: BoundarySystem) -> PreparedSolver:
+        """Assemble and factorise (or precondition) ``system``."""
+        ...
+
+
+@dataclass
+class _DenseFactors:
+    factors: Factorisation
+    timings_s: dict[str, float]
+
+    @property
+    def condition_estimate(self) -> float | None:
+        return self.factors.condition
+
+    def solve(self, rhs: ComplexArray) -> ComplexArray:
+        return self.factors.solve(rhs)
+
+
+@dataclass(frozen=True)
+class DenseLU:
+    """Dense assembly and LAPACK LU; every right-hand side shares one factorisation."""
+
+    name: str = "dense LU"
+
+    def memory_bytes(self, n_unknowns: int) -> int:
+        return MATRICES_IN_FLIGHT * 16 * int(n_unknowns) ** 2
+
+    def prepare(self, system: BoundarySystem) -> PreparedSolver:
+        t0 = time.perf_counter()
+        check_memory(system.n_unknowns)
+        matrix = system.dense_matrix()
+        t1 = time.perf_counter()
+        factors = factorise(matrix)
+        del matrix
+        return _DenseFactors(factors, {"assemble_s": t1 - t0, "factorise_s": time.perf_counter() - t1})
+
+
+@dataclass
+class SolveReport:
+    """What a boundary solve cost and how well posed it was."""
+
+    method: str
+    unknowns: int
+    condition_estimate: float | None
+    memory_planned_bytes: int
+    timings_s: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass
+class BoundarySolution:
+    """Boundary traces for every incident wave (columns) and the raw unknowns."""
+
+    system: BoundarySystem
+    unknowns: ComplexArray
+    u: ComplexArray
+    dudn: ComplexArray
+    report: SolveReport
+
+
+def solve_boundary(
+    system: BoundarySystem,
+    incidents: Sequence[IncidentWave],
+    *,
+    solver: LinearSolver | None = None,
+    incident_values: Callable[[BoundarySystem], tuple[ComplexArray, ComplexArray]] | None = None,
+) -> BoundarySolution:
+    """Solve ``system`` for each incident wave and recover the surface traces.
+
+    Parameters
+    ----------
+    system
+        The boundary equations on a mesh at one frequency.
+    incidents
+        The incident waves (one right-hand side each), in the unbounded
+        region of wavenumber ``system.k``.
+    solver
+        Default ``DenseLU()``.
+    incident_values
+        Optional override giving the incident field and its normal
+        derivative at the nodes, ``(n_nodes, n_incidents)`` each.
+
+    Returns
+    -------
+    BoundarySolution
+        ``u`` and ``dudn`` (normal out of the body), ``(n_nodes, n_incidents)``.
+
+    Raises
+    ------
+    ProblemTooLargeError
+        If the solver's memory plan does not fit.
+    """
+    solver = solver or DenseLU()
+    planned = solver.memory_bytes(system.n_unknowns)
+    prepared = solver.prepare(system)
+    t1 = time.perf_counter()
+    mesh = system.mesh
+    if incident_values is None:
+        u_inc, dn_inc = incident_field(incidents, mesh.nodes, mesh.normals, system.k)
+    else:
+        u_inc, dn_inc = incident_values(system)
+    x = prepared.solve(system.right_hand_sides(u_inc, dn_inc))
+    t2 = time.perf_counter()
+    u, dudn = system.traces(x)
+    stages = prepared.timings_s
+    timings = {
+        "assemble_s": stages.get("assemble_s", 0.0),
+        "factorise_and_solve_s": sum(v for key, v in stages.items() if key != "assemble_s") + (t2 - t1),
+    }
+    report = SolveReport(solver.name, system.n_unknowns, prepared.condition_estimate, planned, timings)
+    return BoundarySolution(system, x, u, dudn, report)

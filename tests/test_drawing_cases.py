@@ -7,7 +7,7 @@ from pathlib import Path
 
 import ezdxf
 import pytest
-from sectionwave.engine import parse_case, solve_scene
+from sectionwave.engine import parse_case, solve_problem
 
 from tests.reference import C0, circle_far_field, relative_error
 
@@ -35,7 +35,7 @@ def test_dxf_circle_matches_series(tmp_path, how):
         "incident": [{"kind": "plane", "from_deg": 10.0}],
         "output": {"plots": False, "vtk": False},
     }
-    fr = solve_scene(parse_case(case, base_dir=tmp_path)).frequencies[0]
+    fr = solve_problem(parse_case(case, base_dir=tmp_path).problem).frequencies[0]
     ref = circle_far_field(ka, k, fr.angles_deg, 10.0, "dirichlet", center=center)
     assert relative_error(fr.farfield[:, 0], ref) < 1e-8
 
@@ -47,7 +47,7 @@ def test_bodies_picked_by_layer_or_point_from_sample_drawings():
     base = {"wave": {"field": "te", "frequency_hz": 1e9}, "output": {"plots": False}}
     by_layer = parse_case({**base, "geometry": {"file": "drawings/ribbed_mast.dxf"},
                            "body": [{"name": "m", "layer": "MAST", "boundary": "pec"}]}, base_dir=samples)
-    body = by_layer.bodies[0].body
+    body = by_layer.problem.scatterers[0].body
     # the sample's section (samples/drawings/make_samples.py): 70 mm across, two holes
     # (cable ducts) inside the outline, so the metal is less than the outline's area
     assert len(body.holes) == 2
@@ -56,7 +56,7 @@ def test_bodies_picked_by_layer_or_point_from_sample_drawings():
     assert xmax - xmin == pytest.approx(0.070, rel=1e-6)
     strut = parse_case({**base, "geometry": {"file": "drawings/strut.svg"},
                         "body": [{"name": "s", "point_m": [0.02, 0.02], "boundary": "pec"}]}, base_dir=samples)
-    assert strut.bodies[0].body.outer.is_ccw
+    assert strut.problem.scatterers[0].body.outer.is_ccw
     with pytest.raises(CaseError, match="not inside any body"):
         parse_case({**base, "geometry": {"file": "drawings/strut.svg"},
                     "body": [{"name": "s", "point_m": [5.0, 5.0], "boundary": "pec"}]}, base_dir=samples)

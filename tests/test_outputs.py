@@ -11,7 +11,7 @@ import xml.etree.ElementTree as ET
 import meshio
 import numpy as np
 import pytest
-from sectionwave.engine import parse_case, solve_scene, write_run
+from sectionwave.engine import parse_case, solve_problem, write_run
 from sectionwave.engine.export import read_csv
 
 from tests.reference import C0
@@ -38,8 +38,9 @@ def sweep(tmp_path_factory):
     out = tmp_path_factory.mktemp("run") / "results"
     k = KA / RADIUS
     f0 = k * C0 / (2 * math.pi)
-    result = solve_scene(parse_case(_case(out.parent, [f0, 1.1 * f0, 1.2 * f0])))
-    write_run(result, out)
+    case = parse_case(_case(out.parent, [f0, 1.1 * f0, 1.2 * f0]))
+    result = solve_problem(case.problem)
+    write_run(result, out, case.output)
     return out, result
 
 

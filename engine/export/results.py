@@ -1,4 +1,4 @@
-"""Write a solved scene: CSV tables, summary.json, VTK files and plots.
+"""Write a solved run: CSV tables, summary.json, VTK files and plots.
 
 Files in the run folder
 -----------------------
@@ -31,8 +31,11 @@ from typing import Any
 
 import numpy as np
 
-from ..fields import echo_width
+from ..conventions import CONVENTION_TEXT, DB_FLOOR, TimeConvention
+from ..fields import echo_width, surface_quantities
+from ..results import FrequencySolution, RunResult
 from .atomic import atomic_write_text
+from .options import OutputOptions
 from .tables import conjugate_for_convention, write_csv
 
 __all__ = ["CAUTION", "SUMMARY_SCHEMA", "summary_dict", "write_run"]
@@ -46,19 +49,31 @@ CAUTION = (
 )
 
 
-def _conv(values: Any, convention: str) -> np.ndarray:
+def _conv(values: Any, convention: TimeConvention) -> np.ndarray:
     return conjugate_for_convention(np.asarray(values, dtype=complex), convention)
 
 
-def write_run(result: Any, out_dir: Path, *, convention: str | None = None) -> list[str]:
-    """Write every output of ``result`` (a ``RunResult``) into ``out_dir``.
+def _surface(result: RunResult, fr: FrequencySolution) -> dict[str, np.ndarray]:
+    problem = result.problem
+    return surface_quantities(problem.field, fr.frequency_hz, fr.u, fr.dudn, problem.medium.density_kg_m3)
 
-    Returns the names of the files written (relative to ``out_dir``).
+
+def write_run(
+    result: RunResult,
+    out_dir: Path,
+    options: OutputOptions | None = None,
+    *,
+    convention: TimeConvention | None = None,
+) -> list[str]:
+    """Write every output of ``result`` into ``out_dir``.
+
+    ``convention`` overrides ``options.time_convention``. Returns the names
+    of the files written (relative to ``out_dir``).
     """
-    from ..run import echo_width_table, physical_surface_quantities
-
-    scene = result.scene
-    conv = convention or scene.time_convention
+    options = options or OutputOptions()
+    problem = result.problem
+    names = [s.name for s in problem.scatterers]
+    conv: TimeConvention = convention or options.time_convention
     out_dir = Path(out_dir)
     written: list[str] = []
 
@@ -70,39 +85,39 @@ def write_run(result: Any, out_dir: Path, *, convention: str | None = None) -> l
         "echo_width_m", "echo_width_db_m", "echo_width_db_lambda")}
     surf_rows: dict[str, list[Any]] = {}
     for fr in result.frequencies:
-        ew = echo_width_table(fr)
+        ew = echo_width(fr.farfield, fr.wavelength_m)
         ff = _conv(fr.farfield, conv)
         na = fr.angles_deg.size
-        for m, col in enumerate(fr.columns):
+        for m, wave in enumerate(fr.incidents):
             ff_rows["frequency_hz"].append(np.full(na, fr.frequency_hz))
-            ff_rows["incident"].append(np.full(na, col["incident"]))
-            ff_rows["from_deg"].append(np.full(na, col["from_deg"]))
+            ff_rows["incident"].append(np.full(na, wave.name))
+            ff_rows["from_deg"].append(np.full(na, wave.from_deg))
             ff_rows["angle_deg"].append(fr.angles_deg)
             ff_rows["farfield_re"].append(ff[:, m].real)
             ff_rows["farfield_im"].append(ff[:, m].imag)
             ff_rows["echo_width_m"].append(ew["m"][:, m])
             ff_rows["echo_width_db_m"].append(ew["db_m"][:, m])
             ff_rows["echo_width_db_lambda"].append(ew["db_lambda"][:, m])
-        plane = [m for m, c in enumerate(fr.columns) if c["kind"] == "plane"]
+        plane = [m for m, w in enumerate(fr.incidents) if w.is_plane]
         if plane:
             mono = _conv(fr.monostatic[plane], conv)
             mono_ew = echo_width(mono, fr.wavelength_m)
             mono_rows["frequency_hz"].append(np.full(len(plane), fr.frequency_hz))
-            mono_rows["from_deg"].append(np.array([fr.columns[m]["from_deg"] for m in plane]))
+            mono_rows["from_deg"].append(np.array([fr.incidents[m].from_deg for m in plane]))
             mono_rows["farfield_re"].append(mono.real)
             mono_rows["farfield_im"].append(mono.imag)
             mono_rows["echo_width_m"].append(mono_ew["m"])
             mono_rows["echo_width_db_m"].append(mono_ew["db_m"])
             mono_rows["echo_width_db_lambda"].append(mono_ew["db_lambda"])
         mesh = fr.mesh
-        phys = physical_surface_quantities(scene, fr)
+        phys = _surface(result, fr)
         n = mesh.n_nodes
-        for m, col in enumerate(fr.columns):
+        for m, wave in enumerate(fr.incidents):
             block: dict[str, Any] = {
                 "frequency_hz": np.full(n, fr.frequency_hz),
-                "incident": np.full(n, col["incident"]),
-                "from_deg": np.full(n, col["from_deg"]),
-                "body": np.array([scene.bodies[b].name for b in mesh.body_of_node]),
+                "incident": np.full(n, wave.name),
+                "from_deg": np.full(n, wave.from_deg),
+                "body": np.array([names[b] for b in mesh.body_of_node]),
                 "contour": mesh.contour_of_node,
                 "x_m": mesh.nodes[:, 0],
                 "y_m": mesh.nodes[:, 1],
@@ -111,7 +126,7 @@ def write_run(result: Any, out_dir: Path, *, convention: str | None = None) -> l
                 "arc_weight_m": mesh.weights,
             }
             u = _conv(fr.u[:, m], conv)
-            dudn = _conv(fr.psi[:, m], conv)
+            dudn = _conv(fr.dudn[:, m], conv)
             block.update({"u_re": u.real, "u_im": u.imag, "dudn_re": dudn.real, "dudn_im": dudn.imag})
             for name, values in phys.items():
                 v = _conv(values[:, m], conv)
@@ -129,13 +144,13 @@ def write_run(result: Any, out_dir: Path, *, convention: str | None = None) -> l
         written.append("monostatic.csv")
     write_csv(out_dir / "surface.csv", {k: np.concatenate(v) for k, v in surf_rows.items()}, header_comment=header)
     written.append("surface.csv")
-    if scene.vtk:
+    if options.vtk:
         written += _write_boundary_vtk(result, out_dir, conv)
-    if any(fr.near is not None for fr in result.frequencies):
-        written += _write_near_fields(result, out_dir, conv)
-    if scene.plots:
+    if any(fr.near_field is not None for fr in result.frequencies):
+        written += _write_near_fields(result, out_dir, conv, plots=options.plots)
+    if options.plots:
         written += _write_plots(result, out_dir)
-    summary = summary_dict(result, conv, written + ["summary.json"])
+    summary = summary_dict(result, options, conv, written + ["summary.json"])
     atomic_write_text(out_dir / "summary.json", json.dumps(summary, indent=2, allow_nan=False, default=_json_default) + "\n")
     return written + ["summary.json"]
 
@@ -159,49 +174,52 @@ def _finite(x: float | None) -> float | None:
     return None if x is None or not math.isfinite(x) else float(x)
 
 
-def summary_dict(result: Any, convention: str, files: list[str]) -> dict[str, Any]:
+def summary_dict(
+    result: RunResult, options: OutputOptions, convention: TimeConvention, files: list[str]
+) -> dict[str, Any]:
     """The content of summary.json (schema ``SUMMARY_SCHEMA``)."""
     from .. import __version__
-    from ..run import panel_wavelengths
 
-    scene = result.scene
+    problem = result.problem
     freqs = []
     for fr in result.frequencies:
         entry: dict[str, Any] = {
             "frequency_hz": fr.frequency_hz,
             "wavelength_m": fr.wavelength_m,
-            "wavenumber_rad_per_m": fr.k,
-            "unknowns": int(fr.mesh.n_nodes),
+            "wavenumber_rad_per_m": fr.wavenumber_rad_per_m,
+            "unknowns": int(fr.unknowns),
             "panels": int(fr.mesh.n_panels),
-            "unknowns_per_wavelength": float(fr.mesh.n_nodes * fr.wavelength_m / fr.mesh.lengths.sum()),
+            "unknowns_per_wavelength": float(fr.unknowns * fr.wavelength_m / fr.mesh.lengths.sum()),
             "estimated_error": _finite(fr.estimated_error),
             "refinement_change": _finite(fr.refinement_change),
             "refinements": fr.refinements,
-            "condition_estimate": _finite(fr.condition),
+            "condition_estimate": _finite(fr.condition_estimate),
             "timings_s": fr.timings_s,
             "warnings": fr.warnings,
         }
-        if fr.widths:
+        if fr.cross_sections is not None:
+            widths = fr.cross_sections.widths()
             entry["cross_sections"] = {
-                "from_deg": [c["from_deg"] for c in fr.columns if c["kind"] == "plane"],
-                **{k: [float(v) for v in vals] for k, vals in fr.widths.items()},
+                "from_deg": [w.from_deg for w in fr.incidents if w.is_plane],
+                **{k: [float(v) for v in vals] for k, vals in widths.items()},
             }
-            entry["optical_theorem_residual_max"] = float(np.max(fr.widths["optical_residual"]))
+            entry["optical_theorem_residual_max"] = float(np.max(widths["optical_residual"]))
         freqs.append(entry)
+    groups: dict[str, dict[str, Any]] = {}
+    for w in problem.incidents:
+        g = groups.setdefault(w.name, {"name": w.name, "kind": w.kind, "from_deg": [], "position_m": w.position_m})
+        if w.is_plane:
+            g["from_deg"].append(w.from_deg)
+    settings = result.settings
     return {
         "schema": SUMMARY_SCHEMA,
         "program": {"name": "sectionwave", "version": __version__, "python": platform.python_version()},
-        "title": scene.title,
-        "case": scene.source,
+        "title": options.title,
+        "case": options.case,
         "caution": CAUTION,
         "conventions": {
             "time_factor": "exp(+j w t)" if convention == "engineering" else "exp(-i w t) (exported as complex conjugates)",
-            "green_function": "G = -(j/4) H0^(2)(k r)",
-            "incident_plane_wave": "u_inc = exp(+j k (x cos phi_i + y sin phi_i)), arriving from phi_i",
-            "far_field": "u_scat ~ F(phi) exp(-j k r) / sqrt(r)",
-            "echo_width": "sigma_2D = 2 pi |F|^2",
-            "angles": "degrees, counter-clockwise from +x",
-            "normals": "out of the body",
+            **CONVENTION_TEXT,
         },
         "units": {
             "length": "m", "frequency": "Hz", "echo_width": "m, dB re 1 m, dB re 1 wavelength",
@@ -209,9 +227,9 @@ def summary_dict(result: Any, convention: str, files: list[str]) -> dict[str, An
             "pressure": "Pa per Pa incident", "velocity": "m/s per Pa incident",
         },
         "inputs": {
-            "field": scene.field,
-            "frequencies_hz": list(scene.frequencies_hz),
-            "wave_speed_m_s": scene.wave_speed_m_s,
+            "field": problem.field,
+            "frequencies_hz": list(problem.frequencies_hz),
+            "wave_speed_m_s": problem.medium.wave_speed_m_s,
             "bodies": [
                 {
                     "name": b.name,
@@ -222,24 +240,20 @@ def summary_dict(result: Any, convention: str, files: list[str]) -> dict[str, An
                     "perimeter_m": b.body.outer.perimeter(),
                     "holes_ignored": len(b.body.holes),
                 }
-                for b in scene.bodies
+                for b in problem.scatterers
             ],
-            "incidents": [
-                {"name": i.name, "kind": i.kind, "from_deg": list(i.from_deg), "position_m": i.position_m}
-                for i in scene.incidents
-            ],
-            "far_field_angles": int(np.size(scene.far_field_deg)),
+            "incidents": list(groups.values()),
+            "far_field_angles": int(np.size(problem.far_field_deg)),
             "solver": {
-                "tolerance": scene.tolerance,
-                "nodes_per_panel": scene.nodes_per_panel,
-                "max_panel_wavelengths": panel_wavelengths(scene),
-                "max_refinements": scene.max_refinements,
-                "method": "Nystrom, kernel-split product integration on Gauss-Legendre panels; "
-                "combined-field (Dirichlet) and Burton-Miller (Neumann, impedance) equations; dense LU",
+                "tolerance": settings.tolerance,
+                "nodes_per_panel": settings.nodes_per_panel,
+                "max_panel_wavelengths": settings.max_panel_wavelengths,
+                "max_refinements": settings.max_refinements,
+                "method": settings.method,
             },
         },
-        "drawing_audit": scene.drawing_audit,
-        "notes": scene.notes,
+        "drawing_audit": options.drawing_audit,
+        "notes": list(options.notes),
         "frequencies": freqs,
         "estimated_error_max": _finite(max((fr.estimated_error for fr in result.frequencies), default=math.nan)),
         "elapsed_s": result.elapsed_s,
@@ -247,31 +261,30 @@ def summary_dict(result: Any, convention: str, files: list[str]) -> dict[str, An
     }
 
 
-def _write_boundary_vtk(result: Any, out_dir: Path, conv: str) -> list[str]:
-    from ..run import physical_surface_quantities
+def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention) -> list[str]:
     from .vtk import write_boundary_vtu, write_sweep_pvd
 
     runs = []
     names = []
     for nf, fr in enumerate(result.frequencies):
         mesh = fr.mesh
-        phys = physical_surface_quantities(result.scene, fr)
-        for m, col in enumerate(fr.columns):
+        phys = _surface(result, fr)
+        for m, wave in enumerate(fr.incidents):
             name = f"boundary_f{nf:03d}_i{m:03d}.vtu"
-            fields = {"u": fr.u[:, m], "dudn": fr.psi[:, m]}
+            fields = {"u": fr.u[:, m], "dudn": fr.dudn[:, m]}
             fields.update({k: v[:, m] for k, v in phys.items()})
             write_boundary_vtu(
                 out_dir / name, mesh.nodes, mesh.normals, mesh.body_of_node, mesh.contour_of_node,
                 fields, real_fields={"arc_weight_m": mesh.weights}, convention=conv,
-                metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": col["from_deg"]},
+                metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": wave.from_deg},
             )
-            runs.append((fr.frequency_hz, col["from_deg"], name))
+            runs.append((fr.frequency_hz, wave.from_deg, name))
             names.append(name)
     write_sweep_pvd(out_dir / "boundary.pvd", runs)
     return names + ["boundary.pvd", "boundary_steps.csv"]
 
 
-def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
+def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, *, plots: bool) -> list[str]:
     """nearfield.csv, probes.csv, one grid .vtu per (frequency, incident wave), nearfield.pvd, field maps."""
     from .plots import plot_field_map
     from .vtk import write_grid_vtu, write_sweep_pvd
@@ -280,30 +293,28 @@ def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
     grid_rows: dict[str, list[Any]] = {}
     probe_rows: dict[str, list[Any]] = {}
     runs = []
-    outlines = [b.body.outer.sample(64) for b in result.scene.bodies]
+    outlines = [s.body.outer.sample(64) for s in result.problem.scatterers]
     for nf, fr in enumerate(result.frequencies):
-        near = fr.near
+        near = fr.near_field
         if near is None:
             continue
-        for slot, m in enumerate(near["columns"]):
-            col = fr.columns[m]
-            for key, rows, pts in (("grid", grid_rows, None), ("probes", probe_rows, near.get("probe_points"))):
-                if key not in near:
+        grid_points = None
+        if near.grid is not None:
+            assert near.x_m is not None and near.y_m is not None
+            xx, yy = np.meshgrid(near.x_m, near.y_m)
+            grid_points = np.column_stack([xx.ravel(), yy.ravel()])
+        for slot, m in enumerate(near.incidents):
+            wave = fr.incidents[m]
+            for samples, rows, pts in ((near.grid, grid_rows, grid_points), (near.probes, probe_rows, near.probes_m)):
+                if samples is None:
                     continue
-                data = near[key]
-                if key == "grid":
-                    xx, yy = np.meshgrid(near["x"], near["y"])
-                    pts = np.column_stack([xx.ravel(), yy.ravel()])
-                    inside = data["inside"].ravel()
-                    values = {n: data[n][..., slot].ravel() for n in ("total", "scattered", "incident")}
-                else:
-                    inside = data["inside"]
-                    values = {n: data[n][:, slot] for n in ("total", "scattered", "incident")}
                 assert pts is not None
+                inside = samples.inside.ravel()
+                values = {n: getattr(samples, n)[..., slot].ravel() for n in ("total", "scattered", "incident")}
                 block: dict[str, Any] = {
                     "frequency_hz": np.full(len(pts), fr.frequency_hz),
-                    "from_deg": np.full(len(pts), col["from_deg"]),
-                    "incident": np.full(len(pts), col["incident"]),
+                    "from_deg": np.full(len(pts), wave.from_deg),
+                    "incident": np.full(len(pts), wave.name),
                     "x_m": pts[:, 0],
                     "y_m": pts[:, 1],
                     "inside": inside.astype(bool),
@@ -314,23 +325,22 @@ def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
                     block[f"{name}_im"] = c.imag
                 for key2, val in block.items():
                     rows.setdefault(key2, []).append(val)
-            if "grid" in near:
-                data = near["grid"]
+            if near.grid is not None:
+                data = near.grid
                 name = f"nearfield_f{nf:03d}_i{m:03d}.vtu"
                 write_grid_vtu(
-                    out_dir / name, near["x"], near["y"],
-                    {n: data[n][..., slot] for n in ("total", "scattered", "incident")},
-                    inside_mask=data["inside"], convention=conv,
-                    metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": col["from_deg"]},
+                    out_dir / name, near.x_m, near.y_m,
+                    {n: getattr(data, n)[..., slot] for n in ("total", "scattered", "incident")},
+                    inside_mask=data.inside, convention=conv,
+                    metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": wave.from_deg},
                 )
                 written.append(name)
-                runs.append((fr.frequency_hz, col["from_deg"], name))
-                if result.scene.plots and nf < 4 and slot < 3:
+                runs.append((fr.frequency_hz, wave.from_deg, name))
+                if plots and nf < 4 and slot < 3:
                     png = f"nearfield_f{nf:03d}_i{m:03d}.png"
-                    what = f"from {col['from_deg']:g} deg" if col["kind"] == "plane" else col["incident"]
                     plot_field_map(
-                        out_dir / png, near["x"], near["y"], data["total"][..., slot], outlines,
-                        quantity="abs", title=f"|total field|, {fr.frequency_hz:.4g} Hz, {what}",
+                        out_dir / png, near.x_m, near.y_m, data.total[..., slot], outlines,
+                        quantity="abs", title=f"|total field|, {fr.frequency_hz:.4g} Hz, {wave.label()}",
                     )
                     written.append(png)
     header = f"sectionwave near field; time convention {conv}; NaN where inside=1 (inside an impenetrable body)"
@@ -345,12 +355,11 @@ def _write_near_fields(result: Any, out_dir: Path, conv: str) -> list[str]:
 
 
 def _db_floored(farfield: np.ndarray, wavelength_m: float) -> np.ndarray:
-    """Echo width in dB re 1 m, with a zero field drawn at -3000 dB instead of -inf."""
-    return np.maximum(echo_width(farfield, wavelength_m)["db_m"], -3000.0)
+    """Echo width in dB re 1 m, with a zero field drawn at ``DB_FLOOR`` instead of -inf."""
+    return np.maximum(echo_width(farfield, wavelength_m)["db_m"], DB_FLOOR)
 
 
-def _write_plots(result: Any, out_dir: Path) -> list[str]:
-    from ..run import echo_width_table
+def _write_plots(result: RunResult, out_dir: Path) -> list[str]:
     from .plots import (
         plot_echo_width_cartesian,
         plot_echo_width_polar,
@@ -363,32 +372,31 @@ def _write_plots(result: Any, out_dir: Path) -> list[str]:
     fr0 = frs[0]
     labels: dict[str, np.ndarray] = {}
     for fr in frs[:4]:
-        ew = echo_width_table(fr)
-        for m, col in enumerate(fr.columns[:3]):
-            what = f"from {col['from_deg']:g} deg" if col["kind"] == "plane" else col["incident"]
-            labels[f"{fr.frequency_hz:.4g} Hz, {what}"] = ew["db_m"][:, m]
+        ew = echo_width(fr.farfield, fr.wavelength_m)
+        for m, wave in enumerate(fr.incidents[:3]):
+            labels[f"{fr.frequency_hz:.4g} Hz, {wave.label()}"] = ew["db_m"][:, m]
     plot_echo_width_polar(out_dir / "echo_width_polar.png", fr0.angles_deg, labels, title="Bistatic echo width")
     plot_echo_width_cartesian(out_dir / "echo_width.png", fr0.angles_deg, labels, title="Bistatic echo width")
     written += ["echo_width_polar.png", "echo_width.png"]
-    plane = [m for m, c in enumerate(fr0.columns) if c["kind"] == "plane"]
+    plane = [m for m, w in enumerate(fr0.incidents) if w.is_plane]
     if len(plane) > 1:
         mono: dict[str, np.ndarray] = {}
         for fr in frs[:4]:
             mono[f"{fr.frequency_hz:.4g} Hz"] = _db_floored(fr.monostatic[plane], fr.wavelength_m)
-        angles = np.array([fr0.columns[m]["from_deg"] for m in plane])
+        angles = np.array([fr0.incidents[m].from_deg for m in plane])
         plot_echo_width_polar(out_dir / "monostatic_polar.png", angles, mono, title="Monostatic echo width")
         plot_echo_width_cartesian(out_dir / "monostatic.png", angles, mono, title="Monostatic echo width")
         written += ["monostatic_polar.png", "monostatic.png"]
     if len(frs) > 1 and plane:
         curves = {}
         for m in plane[:3]:
-            curves[f"monostatic from {fr0.columns[m]['from_deg']:g} deg"] = np.array(
+            curves[f"monostatic from {fr0.incidents[m].from_deg:g} deg"] = np.array(
                 [_db_floored(fr.monostatic[[m]], fr.wavelength_m)[0] for fr in frs]
             )
         plot_echo_width_vs_frequency(out_dir / "echo_width_vs_frequency.png", np.array([fr.frequency_hz for fr in frs]), curves)
         written.append("echo_width_vs_frequency.png")
     mesh = frs[-1].mesh
-    outlines = [b.body.outer.sample(64) for b in result.scene.bodies]
+    outlines = [s.body.outer.sample(64) for s in result.problem.scatterers]
     plot_mesh_preview(
         out_dir / "mesh.png", outlines, mesh.nodes, mesh.normals, list(mesh.ends),
         mesh.lengths / frs[-1].wavelength_m, title=f"Panels at {frs[-1].frequency_hz:.4g} Hz",

@@ -30,11 +30,11 @@ import io
 import os
 from collections.abc import Mapping
 from pathlib import Path
-from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from ..conventions import DB_FLOOR, TIME_CONVENTIONS, TimeConvention
 from .atomic import atomic_write
 from .errors import ExportError
 
@@ -47,14 +47,10 @@ __all__ = [
     "write_csv",
 ]
 
-#: Accepted names of the time convention of exported phasors.
-CONVENTIONS = ("engineering", "physics")
+#: Accepted names of the time convention of exported phasors (defined in ``conventions``).
+CONVENTIONS = TIME_CONVENTIONS
 
-#: Lowest level written for 20 log10 |u|; a zero magnitude maps here instead
-#: of to -inf, which viewers cannot scale a colour bar to.
-DB_FLOOR = -400.0
-
-Convention = Literal["engineering", "physics"]
+Convention = TimeConvention
 
 
 def conjugate_for_convention(

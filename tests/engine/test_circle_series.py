@@ -7,7 +7,7 @@ import math
 
 import numpy as np
 import pytest
-from sectionwave.engine import parse_case, solve_scene
+from sectionwave.engine import parse_case, solve_problem
 
 from tests.reference import C0, case, circle_far_field, relative_error
 
@@ -23,7 +23,7 @@ def _solve_circle(field, ka, radius=1.0, center=(0.2, -0.1), from_deg=30.0, **bo
     shape = {"kind": "circle", "radius_m": radius, "center_m": list(center)}
     doc = case(field, f, [{"name": "c", "shape": shape, "boundary": body.pop("boundary", "pec"), **body}],
                from_deg=from_deg)
-    result = solve_scene(parse_case(doc))
+    result = solve_problem(parse_case(doc).problem)
     return result.frequencies[0], k
 
 
@@ -47,7 +47,7 @@ def test_impedance_circle_matches_series_and_absorbs(field, z):
     lam = 1j * k / z if field == "tm" else 1j * k * z
     ref = circle_far_field(ka, k, fr.angles_deg, 30.0, "robin", center=(0.2, -0.1), lam_a=lam * 1.0)
     assert relative_error(fr.farfield[:, 0], ref) < 1e-8
-    w = fr.widths
+    w = fr.cross_sections.widths()
     # a passive surface absorbs: C_ext >= C_s (2D optical theorem), and the
     # absorption from the far field equals the power flux into the surface
     assert w["extinction_width_m"][0] > w["scattering_width_m"][0]
@@ -71,7 +71,7 @@ def test_acoustic_circle_matches_series(boundary, kind):
     doc = case("acoustic", k * c / (2 * math.pi),
                [{"name": "c", "shape": {"kind": "circle", "radius_m": radius}, "boundary": boundary}])
     doc["wave"]["sound_speed_m_s"] = c
-    fr = solve_scene(parse_case(doc)).frequencies[0]
+    fr = solve_problem(parse_case(doc).problem).frequencies[0]
     ref = circle_far_field(ka, k, fr.angles_deg, 0.0, kind)
     assert relative_error(fr.farfield[:, 0], ref) < 1e-8
 
@@ -89,7 +89,7 @@ def test_line_source_near_pec_circle_matches_series():
     doc = case("tm", k * C0 / (2 * math.pi),
                [{"name": "c", "shape": {"kind": "circle", "radius_m": radius}, "boundary": "pec"}])
     doc["incident"] = [{"kind": "line", "position_m": [rs * math.cos(phis), rs * math.sin(phis)]}]
-    fr = solve_scene(parse_case(doc)).frequencies[0]
+    fr = solve_problem(parse_case(doc).problem).frequencies[0]
     n = np.arange(-60, 61)
     coef = (1j**n) * sp.jv(n, ka) / sp.hankel2(n, ka) * sp.hankel2(n, k * rs)
     phi = np.deg2rad(fr.angles_deg)

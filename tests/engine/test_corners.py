@@ -13,7 +13,7 @@ import math
 
 import numpy as np
 import pytest
-from sectionwave.engine import parse_case, solve_scene
+from sectionwave.engine import parse_case, solve_problem
 
 from tests.reference import C0, L_SHAPE, SQUARE, case
 
@@ -23,7 +23,7 @@ def _solve(field, shape, tol):
     doc = case(field, k * C0 / (2 * math.pi), [{"name": "b", "shape": shape, "boundary": "pec"}],
                angles={"start": 0, "stop": 359.5, "count": 720}, solver={"tolerance": tol})
     doc["incident"] = [{"kind": "plane", "from_deg": [20.0, 75.0]}]
-    return solve_scene(parse_case(doc)).frequencies[0]
+    return solve_problem(parse_case(doc).problem).frequencies[0]
 
 
 @pytest.mark.parametrize("shape", [SQUARE, L_SHAPE], ids=["square", "L"])
@@ -36,7 +36,7 @@ def test_corner_bodies_identities_and_convergence(field, shape):
     # Reciprocity: a wave from 20 deg seen at 75 deg equals one from 75 deg seen at 20 deg
     # (sources and observers swapped: angle indices 150 and 40 on the 0.5 deg grid).
     assert abs(ff[150, 0] - ff[40, 1]) / scale < 1e-8
-    assert np.max(fine.widths["optical_residual"]) < 1e-8
+    assert np.max(fine.cross_sections.optical_residual) < 1e-8
     # Tightening the tolerance changes the answer by no more than the looser tolerance.
     change = np.max(np.abs(fine.farfield - coarse.farfield)) / scale
     assert change < 1e-6, change
@@ -54,7 +54,7 @@ def test_wide_thin_strip_broadside_tends_to_physical_optics(field):
     shape = {"kind": "rectangle", "width_m": 0.02, "height_m": width}
     doc = case(field, C0 / wavelength, [{"name": "strip", "shape": shape, "boundary": "pec"}],
                from_deg=0.0, angles=[0.0], solver={"tolerance": 1e-6})
-    fr = solve_scene(parse_case(doc)).frequencies[0]
+    fr = solve_problem(parse_case(doc).problem).frequencies[0]
     sigma = 2 * math.pi * abs(fr.monostatic[0]) ** 2
     assert abs(sigma / (k * width**2) - 1) < 0.01
     assert fr.mesh.n_nodes < 6000  # thin bodies must not be refined to their thickness

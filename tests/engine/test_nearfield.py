@@ -7,16 +7,8 @@ from functools import lru_cache
 import numpy as np
 import pytest
 import scipy.special as sp
-from sectionwave.engine.fields import plane_wave
-from sectionwave.engine.formulations import (
-    DIRICHLET,
-    NEUMANN,
-    SurfaceConditions,
-    needed_operators,
-    right_hand_sides,
-    surface_traces,
-    system_matrix,
-)
+from sectionwave.engine.formulations import Dirichlet, Neumann
+from sectionwave.engine.problem import IncidentWave
 from sectionwave.engine.kernels import kernel_matrices
 from sectionwave.engine.mesh import BoundaryContour, PanelMesh, build_panels
 from sectionwave.engine.nearfield import (
@@ -25,8 +17,8 @@ from sectionwave.engine.nearfield import (
     inside_mask,
     scattered_field,
 )
-from sectionwave.engine.operators import assemble_operators
-from sectionwave.engine.solve import factorise
+from sectionwave.engine.solve import solve_boundary
+from sectionwave.engine.system import BoundarySystem
 from sectionwave.importers.curves import Contour, Line, circular_arc
 
 SERIES = "series solution, Balanis, Advanced Engineering Electromagnetics, ch. 11"
@@ -82,14 +74,9 @@ def circle_mesh(k: float) -> PanelMesh:
 def solved_circle(ka: float, kind: str) -> tuple[PanelMesh, float, np.ndarray, np.ndarray]:
     k = ka / RADIUS
     mesh = circle_mesh(k)
-    kinds = np.full(mesh.n_nodes, DIRICHLET if kind == "tm" else NEUMANN)
-    cond = SurfaceConditions(kinds, np.zeros(mesh.n_nodes, dtype=complex))
-    ops = assemble_operators(mesh, k, **needed_operators(cond))
-    fac = factorise(system_matrix(ops, cond))
-    u_inc, dn_inc = plane_wave(mesh.nodes, mesh.normals, k, [FROM_DEG])
-    x = fac.solve(right_hand_sides(cond, k, u_inc, dn_inc))
-    u, psi = surface_traces(cond, k, x)
-    return mesh, k, u, psi
+    system = BoundarySystem(mesh, [Dirichlet() if kind == "tm" else Neumann()], k)
+    solution = solve_boundary(system, [IncidentWave("test", "plane", from_deg=FROM_DEG)])
+    return mesh, k, solution.u, solution.dudn
 
 
 def ring(k: float, distance_wavelengths: float, n: int = 240) -> np.ndarray:

@@ -1,0 +1,42 @@
+"""What to write, and the case's own record for the summary.
+
+The face (case loader, command line) fills an ``OutputOptions``; the engine
+never sees it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from ..conventions import TimeConvention
+
+__all__ = ["OutputOptions"]
+
+
+@dataclass(frozen=True)
+class OutputOptions:
+    """Output switches and the case's record.
+
+    Attributes
+    ----------
+    time_convention
+        ``engineering`` (exp(+j w t), the engine's own) or ``physics``
+        (exp(-i w t): complex values are written as conjugates).
+    plots, vtk
+        Write PNG plots and VTK files for ParaView.
+    title, case
+        The case's title and where it was read from.
+    drawing_audit
+        The drawing's cleaning audit (None without a drawing).
+    notes
+        The case's own notes (for example ignored cavities).
+    """
+
+    time_convention: TimeConvention = "engineering"
+    plots: bool = True
+    vtk: bool = True
+    title: str = "untitled"
+    case: str = "<case>"
+    drawing_audit: dict[str, Any] | None = None
+    notes: tuple[str, ...] = field(default_factory=tuple)
