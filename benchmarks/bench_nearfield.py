@@ -17,20 +17,12 @@ import time
 
 import numpy as np
 import scipy.special as sp
-from sectionwave.engine.fields import plane_wave
-from sectionwave.engine.formulations import (
-    DIRICHLET,
-    NEUMANN,
-    SurfaceConditions,
-    needed_operators,
-    right_hand_sides,
-    surface_traces,
-    system_matrix,
-)
+from sectionwave.engine.formulations import Dirichlet, Neumann
 from sectionwave.engine.mesh import BoundaryContour, build_panels
 from sectionwave.engine.nearfield import field_on_grid, inside_mask, scattered_field
-from sectionwave.engine.operators import assemble_operators
-from sectionwave.engine.solve import factorise
+from sectionwave.engine.problem import IncidentWave
+from sectionwave.engine.solve import solve_boundary
+from sectionwave.engine.system import BoundarySystem
 from sectionwave.importers.curves import Contour, circular_arc
 
 FROM_DEG = 30.0
@@ -93,13 +85,10 @@ def main() -> None:
           f"({mesh.n_panels} panels), mesh {time.perf_counter() - t:.1f} s")
     t = time.perf_counter()
     if args.traces == "solve":
-        kinds = np.full(mesh.n_nodes, DIRICHLET if args.kind == "tm" else NEUMANN)
-        cond = SurfaceConditions(kinds, np.zeros(mesh.n_nodes, dtype=complex))
-        ops = assemble_operators(mesh, k, **needed_operators(cond))
-        fac = factorise(system_matrix(ops, cond))
-        u_inc, dn_inc = plane_wave(mesh.nodes, mesh.normals, k, [FROM_DEG])
-        u, psi = surface_traces(cond, k, fac.solve(right_hand_sides(cond, k, u_inc, dn_inc)))
-        del ops, fac
+        system = BoundarySystem(mesh, [Dirichlet() if args.kind == "tm" else Neumann()], k)
+        solution = solve_boundary(system, [IncidentWave("bench", "plane", from_deg=FROM_DEG)])
+        u, psi = solution.u, solution.dudn
+        del solution
     else:
         u, psi = series_traces(k, a, mesh.nodes, args.kind)
     print(f"surface traces ({args.traces}): {time.perf_counter() - t:.1f} s")

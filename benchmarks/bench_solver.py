@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import argparse
 import cProfile
-import inspect
 import io
 import json
 import math
@@ -43,17 +42,8 @@ sys.path.insert(0, HERE)
 
 from low_order import solve_circle_tm  # noqa: E402
 from sectionwave.engine.fields import far_field, plane_wave  # noqa: E402
-from sectionwave.engine.formulations import (  # noqa: E402
-    DIRICHLET,
-    NEUMANN,
-    SurfaceConditions,
-    needed_operators,
-    right_hand_sides,
-    surface_traces,
-    system_matrix,
-)
+from sectionwave.engine.formulations import Dirichlet, Neumann  # noqa: E402
 from sectionwave.engine.mesh import BoundaryContour, build_panels  # noqa: E402
-from sectionwave.engine.operators import assemble_operators  # noqa: E402
 from sectionwave.engine.solve import (  # noqa: E402
     MATRICES_IN_FLIGHT,
     ProblemTooLargeError,
@@ -61,18 +51,18 @@ from sectionwave.engine.solve import (  # noqa: E402
     check_memory,
     factorise,
 )
+from sectionwave.engine.system import BoundarySystem  # noqa: E402
 from sectionwave.importers.curves import Contour, circular_arc, polygon_segments  # noqa: E402
 
 INCIDENT_DEG = 30.0
-_TRACES_TAKE_K = len(inspect.signature(surface_traces).parameters) == 3
 
 
 # --------------------------------------------------------------------------- helpers
 
 
-def traces(cond, k, x):
-    """``surface_traces`` across the two signatures the engine has had."""
-    return surface_traces(cond, k, x) if _TRACES_TAKE_K else surface_traces(cond, x)
+def boundary_system(mesh, kind: str, k: float) -> BoundarySystem:
+    """The engine's boundary system for a PEC body: TM (Dirichlet) or TE (Neumann)."""
+    return BoundarySystem(mesh, [Dirichlet() if kind == "tm" else Neumann()] * int(mesh.body_of_contour.size), k)
 
 
 def circle_contour(n_arcs: int, radius: float = 1.0) -> Contour:
@@ -126,20 +116,17 @@ def solve(boundary: BoundaryContour, k: float, kind: str, angles, *, mesh_kw: di
         mesh = build_panels([boundary], **mesh_kw)
     t1 = time.perf_counter()
     t["mesh"] = t1 - t0
-    kinds = np.full(mesh.n_nodes, DIRICHLET if kind == "tm" else NEUMANN)
-    cond = SurfaceConditions(kinds, np.zeros(mesh.n_nodes, complex))
-    ops = assemble_operators(mesh, k, **needed_operators(cond))
-    a = system_matrix(ops, cond)
-    del ops
+    system = boundary_system(mesh, kind, k)
+    a = system.dense_matrix()
     t2 = time.perf_counter()
     t["assemble"] = t2 - t1
     f = factorise(a)
     ui, dni = plane_wave(mesh.nodes, mesh.normals, k, [INCIDENT_DEG])
-    x = f.solve(right_hand_sides(cond, k, ui, dni))
+    x = f.solve(system.right_hand_sides(ui, dni))
     t3 = time.perf_counter()
     t["solve"] = t3 - t2
-    u, psi = traces(cond, k, x)
-    ff = far_field(mesh, k, u, psi, angles)[:, 0]
+    u, dudn = system.traces(x)
+    ff = far_field(mesh, k, u, dudn, angles)[:, 0]
     t["farfield"] = time.perf_counter() - t3
     return Run(mesh.n_nodes, ff, t, f.condition)
 
@@ -398,18 +385,13 @@ def worker(n: int, kind: str, p: int, repeats: int, profile: bool) -> None:
     mesh = build_panels([bnd], p=p, tolerance=1e-8, max_panel_wavelengths=2.0)
     if mesh.n_nodes != n:
         raise SystemExit(f"meshed to {mesh.n_nodes} unknowns instead of {n}")
-    kinds = np.full(n, DIRICHLET if kind == "tm" else NEUMANN)
-    cond = SurfaceConditions(kinds, np.zeros(n, complex))
+    system = boundary_system(mesh, kind, k)
     rss0 = _status_kib("VmRSS")
     best = None
     for _ in range(max(1, repeats)):
         t0 = time.perf_counter()
-        ops = assemble_operators(mesh, k, **needed_operators(cond))
-        t1 = time.perf_counter()
-        a = system_matrix(ops, cond)
-        t2 = time.perf_counter()
-        del ops
-        t3 = time.perf_counter()
+        a = system.dense_matrix()  # operators and their combination, in one call
+        t1 = t2 = t3 = time.perf_counter()
         factorise(a)
         t4 = time.perf_counter()
         del a
@@ -420,7 +402,7 @@ def worker(n: int, kind: str, p: int, repeats: int, profile: bool) -> None:
     if profile:
         pr = cProfile.Profile()
         pr.enable()
-        assemble_operators(mesh, k, **needed_operators(cond))
+        system.dense_matrix()
         pr.disable()
         s = io.StringIO()
         pstats.Stats(pr, stream=s).sort_stats("tottime").print_stats(10)

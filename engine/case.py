@@ -38,7 +38,7 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 import tomllib
@@ -52,7 +52,7 @@ from sectionwave.importers.curves import (
 )
 from sectionwave.importers.errors import SectionwaveError
 
-from .conventions import TIME_CONVENTIONS
+from .conventions import TIME_CONVENTIONS, TimeConvention
 from .export.options import OutputOptions
 from .problem import (
     BOUNDARIES,
@@ -60,6 +60,7 @@ from .problem import (
     FIELDS,
     SOUND_SPEED_AIR_M_S,
     SPEED_OF_LIGHT_M_S,
+    BoundaryKind,
     IncidentWave,
     Medium,
     NearFieldRequest,
@@ -370,7 +371,8 @@ def _bodies(top: _Reader, source: str, field_kind: str, drawing: Any) -> list[Sc
         br.finish()
         for n, body in enumerate(found):
             label = name if len(found) == 1 else f"{name}.{n + 1}"
-            bodies.append(Scatterer(label, Body(body.outer, body.holes, label), boundary, imp, where))
+            kind = cast(BoundaryKind, boundary)  # one of BOUNDARIES[field_kind], checked above
+            bodies.append(Scatterer(label, Body(body.outer, body.holes, label), kind, imp, where))
     body_names = [b.name for b in bodies]
     if len(set(body_names)) != len(body_names):
         raise top.fail("body", f"names must differ, got {body_names}")
@@ -436,7 +438,7 @@ def _output(
             raise orr.fail(key, f"must be true or false, got {val!r}")
     orr.finish()
     return OutputOptions(
-        time_convention=convention,  # type: ignore[arg-type]  # checked against TIME_CONVENTIONS above
+        time_convention=cast(TimeConvention, convention),  # checked against TIME_CONVENTIONS above
         plots=bool(plots),
         vtk=bool(vtk),
         title=title,

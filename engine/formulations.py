@@ -43,6 +43,7 @@ from __future__ import annotations
 
 from abc import ABC, abstractmethod
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -131,7 +132,7 @@ class Formulation(ABC):
         raise NotImplementedError(f"{self.name} has no inner region")
 
 
-def _column(values: FloatArray | ComplexArray) -> ComplexArray:
+def _column(values: NDArray[Any]) -> ComplexArray:
     return np.asarray(values, dtype=complex).reshape(-1, 1)
 
 

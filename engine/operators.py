@@ -29,6 +29,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -209,7 +210,7 @@ def near_corrections(
     log_w: NDArray[np.float64],
     cauchy: NDArray[np.complex128],
     want: tuple[bool, ...] = (True, True, True, True),
-) -> list[ComplexArray | None]:
+) -> list[NDArray[Any] | None]:
     """Corrections (product minus plain weights) for S, D, D' and Dt, shape ``(m, p)``.
 
     ``n_tgt`` may hold zeros for targets off the boundary (field points);
@@ -223,7 +224,7 @@ def near_corrections(
     a_s, a_d, a_dp, a_dt = log_coefficients(k, dx, dy, n_s, n_t)
     log_fix = log_w - np.log(r) * omega[None, :]
     unit = (np.abs(tau_t) / tau_t)[None, :]
-    out: list[ComplexArray | None] = [None, None, None, None]
+    out: list[NDArray[Any] | None] = [None, None, None, None]
 
     def laplace_fix(direction: NDArray[np.complex128]) -> NDArray[np.float64]:
         # int f Re[c / (z - tau)] ds with product weights, minus the plain rule.

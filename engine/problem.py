@@ -24,7 +24,8 @@ Physical constants used by every part of the engine live here.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from dataclasses import field as dc_field
 from typing import Literal
 
 import numpy as np
@@ -174,9 +175,9 @@ class Problem:
     scatterers: tuple[Scatterer, ...]
     incidents: tuple[IncidentWave, ...]
     frequencies_hz: tuple[float, ...]
-    far_field_deg: NDArray[np.float64] = field(default_factory=lambda: np.linspace(0.0, 360.0, 721))
+    far_field_deg: NDArray[np.float64] = dc_field(default_factory=lambda: np.linspace(0.0, 360.0, 721))
     near_field: NearFieldRequest | None = None
-    solver: SolverOptions = field(default_factory=SolverOptions)
+    solver: SolverOptions = dc_field(default_factory=SolverOptions)
 
     def __post_init__(self) -> None:
         if self.field not in FIELDS:

@@ -156,7 +156,7 @@ def self_log_weights(p: int) -> FloatArray:
         moments[i] = right + left
     vander = legendre.legvander(x, p - 1)  # V[j, k] = P_k(x_j)
     # W V = M  ->  W = M V^-1
-    weights = np.linalg.solve(vander.T, moments.T).T
+    weights = np.asarray(np.linalg.solve(vander.T, moments.T).T, dtype=np.float64)
     weights.setflags(write=False)
     return weights
 
@@ -296,4 +296,4 @@ def near_weights(
     log_w = np.log(abs(half)) * (wgl * speed)[None, :] + abs(half) * np.real(
         log_c * (np.abs(tn_t) / tn_t)[None, :]
     )
-    return log_w, cauchy
+    return np.asarray(log_w, dtype=np.float64), np.asarray(cauchy, dtype=np.complex128)

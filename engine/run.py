@@ -79,12 +79,12 @@ def solve_problem(
     RunResult
     """
     start = time.perf_counter()
-    solver = solver or DenseLU()
+    active: LinearSolver = solver if solver is not None else DenseLU()
     results = []
     for n, freq in enumerate(problem.frequencies_hz):
         if progress is not None:
             progress(f"frequency {n + 1}/{len(problem.frequencies_hz)}: {freq:.6g} Hz")
-        results.append(_solve_frequency(problem, freq, solver))
+        results.append(_solve_frequency(problem, freq, active))
     s = problem.solver
     settings = RunSettings(s.tolerance, s.nodes_per_panel, panel_wavelengths(problem), s.max_refinements, METHOD)
     return RunResult(problem, results, settings, time.perf_counter() - start)

@@ -146,9 +146,13 @@ def factorise(matrix: ComplexArray, *, overwrite: bool = True) -> Factorisation:
 class PreparedSolver(Protocol):
     """A system made ready to solve (factorised, or preconditioned)."""
 
-    condition_estimate: float | None
     #: Seconds spent preparing, by stage (``assemble_s``, ``factorise_s``, ...).
     timings_s: dict[str, float]
+
+    @property
+    def condition_estimate(self) -> float | None:
+        """Estimated condition number of the system, if the solver knows it."""
+        ...
 
     def solve(self, rhs: ComplexArray) -> ComplexArray:
         """Unknowns for each column of ``rhs``."""
@@ -158,7 +162,10 @@ class PreparedSolver(Protocol):
 class LinearSolver(Protocol):
     """A way to solve boundary systems (dense LU today; an iterative fast solver may join it)."""
 
-    name: str
+    @property
+    def name(self) -> str:
+        """Name used in reports."""
+        ...
 
     def memory_bytes(self, n_unknowns: int) -> int:
         """Bytes a solve of ``n_unknowns`` needs at its peak (no allocation)."""
@@ -255,9 +262,9 @@ def solve_boundary(
     ProblemTooLargeError
         If the solver's memory plan does not fit.
     """
-    solver = solver or DenseLU()
-    planned = solver.memory_bytes(system.n_unknowns)
-    prepared = solver.prepare(system)
+    active: LinearSolver = solver if solver is not None else DenseLU()
+    planned = active.memory_bytes(system.n_unknowns)
+    prepared = active.prepare(system)
     t1 = time.perf_counter()
     mesh = system.mesh
     if incident_values is None:
@@ -272,5 +279,5 @@ def solve_boundary(
         "assemble_s": stages.get("assemble_s", 0.0),
         "factorise_and_solve_s": sum(v for key, v in stages.items() if key != "assemble_s") + (t2 - t1),
     }
-    report = SolveReport(solver.name, system.n_unknowns, prepared.condition_estimate, planned, timings)
+    report = SolveReport(active.name, system.n_unknowns, prepared.condition_estimate, planned, timings)
     return BoundarySolution(system, x, u, dudn, report)

@@ -327,6 +327,7 @@ def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, *
                     rows.setdefault(key2, []).append(val)
             if near.grid is not None:
                 data = near.grid
+                assert near.x_m is not None and near.y_m is not None
                 name = f"nearfield_f{nf:03d}_i{m:03d}.vtu"
                 write_grid_vtu(
                     out_dir / name, near.x_m, near.y_m,

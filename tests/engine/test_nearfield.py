@@ -8,7 +8,6 @@ import numpy as np
 import pytest
 import scipy.special as sp
 from sectionwave.engine.formulations import Dirichlet, Neumann
-from sectionwave.engine.problem import IncidentWave
 from sectionwave.engine.kernels import kernel_matrices
 from sectionwave.engine.mesh import BoundaryContour, PanelMesh, build_panels
 from sectionwave.engine.nearfield import (
@@ -17,6 +16,7 @@ from sectionwave.engine.nearfield import (
     inside_mask,
     scattered_field,
 )
+from sectionwave.engine.problem import IncidentWave
 from sectionwave.engine.solve import solve_boundary
 from sectionwave.engine.system import BoundarySystem
 from sectionwave.importers.curves import Contour, Line, circular_arc
