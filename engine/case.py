@@ -19,9 +19,13 @@ The schema (keys may be added, never renamed)::
     [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...,
                   sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
     [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
+    [materials.NAME]  eps_r, mu_r (number or [re, im]), loss_tangent, conductivity_s_m;
+                  sound_speed_m_s (number or [re, im]), density_kg_m3,
+                  attenuation_db_per_wavelength (built-in names: engine.materials)
     [[body]]      name, shape = {kind = ...} | layer = "NAME" | point_m = [x, y],
-                  boundary = "pec" | "soft" | "hard" | "impedance",
-                  impedance = number or [re, im] (normalised to the medium)
+                  boundary = "pec" | "soft" | "hard" | "impedance" | "penetrable",
+                  impedance = number or [re, im] (normalised to the medium),
+                  material = "NAME" or the material keys inline (penetrable)
     [[incident]]  kind = "plane", from_deg = ...  |  kind = "line", position_m = [x, y]
     [far_field]   angles_deg = ...
     [near_field]  x_m = [min, max], y_m = [min, max], spacing_m = ... | count = [nx, ny],
@@ -62,6 +66,7 @@ from .problem import (
     SPEED_OF_LIGHT_M_S,
     BoundaryKind,
     IncidentWave,
+    Material,
     Medium,
     NearFieldRequest,
     Problem,
@@ -278,7 +283,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     """
     top = _Reader(source, doc, "")
     title = top.text("title", "untitled")
-    for name in ("wave", "far_field", "solver", "output", "geometry", "near_field"):
+    for name in ("wave", "far_field", "solver", "output", "geometry", "near_field", "materials"):
         if top.has(name) and not isinstance(doc[name], Mapping):
             raise top.fail(name, "must be a table")
     if not top.has("wave"):
@@ -290,11 +295,12 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     audit = None
     if geometry is not None:
         drawing, audit = _load_geometry(_Reader(source, geometry, "geometry"), base_dir)
-    scatterers = _bodies(top, source, field_kind, drawing)
+    materials = _materials(top, source)
+    scatterers = _bodies(top, source, field_kind, drawing, materials)
     notes = tuple(
         f"body {s.name!r} has {len(s.body.holes)} hole(s): closed cavities of an impenetrable "
         "body do not affect the exterior field and are not meshed"
-        for s in scatterers if s.body.holes
+        for s in scatterers if s.body.holes and not s.is_penetrable
     )
     incidents = _incidents(top, source, scatterers)
 
@@ -339,7 +345,81 @@ def _wave(wave: _Reader) -> tuple[Any, tuple[float, ...], Medium]:
     return field_kind, freqs, Medium(speed, density)
 
 
-def _bodies(top: _Reader, source: str, field_kind: str, drawing: Any) -> list[Scatterer]:
+MATERIAL_KEYS = (
+    "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
+    "sound_speed_m_s", "density_kg_m3", "attenuation_db_per_wavelength",
+)
+
+
+def _complex_value(r: _Reader, key: str, default: complex) -> complex:
+    value = r.get(key, default)
+    if _is_finite_number(value):
+        return complex(value)
+    if isinstance(value, list) and len(value) == 2 and all(_is_finite_number(v) for v in value):
+        return complex(value[0], value[1])
+    raise r.fail(key, f"must be a number or [re, im], got {value!r}")
+
+
+def _material(r: _Reader, name: str) -> Material:
+    """A material from the keys of ``r`` (a [materials.NAME] table or a [[body]] table)."""
+    eps = _complex_value(r, "eps_r", 1.0)
+    mu = _complex_value(r, "mu_r", 1.0)
+    for key, value in (("eps_r", eps), ("mu_r", mu)):
+        if value.imag > 0:
+            raise r.fail(key, f"has a positive imaginary part {value.imag!r}: with exp(+j w t) losses are "
+                              "negative imaginary parts (or give loss_tangent)")
+    tan_d = r.number("loss_tangent", 0.0)
+    sigma = r.number("conductivity_s_m", 0.0)
+    atten = r.number("attenuation_db_per_wavelength", 0.0)
+    for key, value in (("loss_tangent", tan_d), ("conductivity_s_m", sigma), ("attenuation_db_per_wavelength", atten)):
+        if value < 0:
+            raise r.fail(key, f"must not be negative (a passive material), got {value!r}")
+    speed = _complex_value(r, "sound_speed_m_s", 0.0) if r.has("sound_speed_m_s") else None
+    if speed is not None and (speed.real <= 0 or speed.imag < 0):
+        raise r.fail("sound_speed_m_s", f"must have a positive real part and no negative imaginary part, got {speed!r}")
+    density = r.number("density_kg_m3", positive=True) if r.has("density_kg_m3") else None
+    return Material(name, eps, mu, tan_d, sigma, speed, density, atten)
+
+
+def _materials(top: _Reader, source: str) -> dict[str, Material]:
+    from .materials import BUILT_IN_MATERIALS
+
+    table = dict(BUILT_IN_MATERIALS)
+    raw = top.get("materials")
+    if raw is None:
+        return table
+    for name, spec in raw.items():
+        if not isinstance(spec, Mapping):
+            raise CaseError(f"{source}: [materials.{name}] must be a table of material keys ({', '.join(MATERIAL_KEYS)})")
+        mr = _Reader(source, spec, f"materials.{name}")
+        table[name] = _material(mr, name)
+        mr.finish()
+    return table
+
+
+def _body_material(br: _Reader, field_kind: str, materials: dict[str, Material], name: str) -> Material:
+    inline = [k for k in MATERIAL_KEYS if br.has(k)]
+    if br.has("material") and inline:
+        raise br.fail("material", f"give a material name or the keys {inline} inline, not both")
+    if br.has("material"):
+        key = br.text("material")
+        if key not in materials:
+            raise br.fail("material", f"{key!r} is not defined; add [materials.{key}] or use one of "
+                                      f"{', '.join(sorted(materials))}")
+        material = materials[key]
+    else:
+        material = _material(br, name)
+    if field_kind == "acoustic" and (material.sound_speed_m_s is None or material.density_kg_m3 is None):
+        raise br.fail("material", f"material {material.name!r} needs sound_speed_m_s and density_kg_m3 for sound")
+    if field_kind != "acoustic" and material.sound_speed_m_s is not None and not br.has("eps_r") \
+            and material.eps_r == 1.0 and material.mu_r == 1.0 and material.loss_tangent == 0.0:
+        raise br.fail("material", f"material {material.name!r} has no electromagnetic values (eps_r, mu_r)")
+    return material
+
+
+def _bodies(
+    top: _Reader, source: str, field_kind: str, drawing: Any, materials: dict[str, Material]
+) -> list[Scatterer]:
     raw_bodies = top.get("body")
     if not isinstance(raw_bodies, list) or not raw_bodies:
         raise top.fail("body", "is required: at least one [[body]] table")
@@ -356,6 +436,9 @@ def _bodies(top: _Reader, source: str, field_kind: str, drawing: Any) -> list[Sc
         imp = _impedance(br) if boundary == "impedance" else None
         if boundary != "impedance" and br.has("impedance"):
             raise br.fail("impedance", "is only allowed with boundary = \"impedance\"")
+        material = _body_material(br, field_kind, materials, name) if boundary == "penetrable" else None
+        if material is None and (br.has("material") or any(br.has(k) for k in MATERIAL_KEYS)):
+            raise br.fail("material", "material keys are only allowed with boundary = \"penetrable\"")
         if imp is not None and imp == 0 and field_kind != "te":
             raise br.fail("impedance", "is zero: use boundary = \"pec\" (or \"soft\" for sound)")
         if picks[0] == "shape":
@@ -372,7 +455,7 @@ def _bodies(top: _Reader, source: str, field_kind: str, drawing: Any) -> list[Sc
         for n, body in enumerate(found):
             label = name if len(found) == 1 else f"{name}.{n + 1}"
             kind = cast(BoundaryKind, boundary)  # one of BOUNDARIES[field_kind], checked above
-            bodies.append(Scatterer(label, Body(body.outer, body.holes, label), kind, imp, where))
+            bodies.append(Scatterer(label, Body(body.outer, body.holes, label), kind, imp, where, material))
     body_names = [b.name for b in bodies]
     if len(set(body_names)) != len(body_names):
         raise top.fail("body", f"names must differ, got {body_names}")
@@ -518,16 +601,27 @@ def _read_probes(r: _Reader, path: Path) -> np.ndarray:
 
 
 def _check_disjoint(source: str, bodies: list[Scatterer]) -> None:
+    """Bodies may not overlap or touch, except one lying strictly inside a penetrable one."""
     from shapely.geometry import Polygon
 
     polys = [Polygon(b.body.outer.sample(64)) for b in bodies]
     for i in range(len(polys)):
         for j in range(i + 1, len(polys)):
-            if polys[i].intersects(polys[j]):
-                c = polys[i].intersection(polys[j]).representative_point()
+            if not polys[i].intersects(polys[j]):
+                continue
+            for outer, inner in ((i, j), (j, i)):
+                nested = polys[outer].contains(polys[inner]) and not polys[outer].boundary.intersects(
+                    polys[inner].boundary
+                )
+                if nested and bodies[outer].is_penetrable:
+                    break
+            else:
+                c = polys[i].boundary.intersection(polys[j].boundary)
+                c = c.representative_point() if not c.is_empty else polys[i].intersection(polys[j]).representative_point()
                 raise CaseError(
                     f"{source}: bodies {bodies[i].name!r} and {bodies[j].name!r} overlap or touch "
-                    f"near ({c.x:.6g}, {c.y:.6g}) m; move them apart or merge them into one body"
+                    f"near ({c.x:.6g}, {c.y:.6g}) m; move them apart or merge them into one body "
+                    "(a body may lie inside a penetrable one without touching it)"
                 )
 
 

@@ -33,6 +33,15 @@ combined equations (impenetrable bodies, one side)
     first identity makes its imaginary part force ``w = 0`` whenever the
     coupling is not real, so no frequency is resonant. The circle's
     interior eigenfrequencies (zeros of J0 and J1') are checked in the tests.
+interface between two media (penetrable bodies)
+    u and ``beta du/dn`` are continuous; the unknowns are ``u`` and the
+    outside ``dudn / |k_out|`` (the inside one is ``beta_out / beta_in``
+    times the outside one). The rows are ``E1_out + E1_in`` and
+    ``(E2_out + E2_in) / |k_out|``: the hypersingular parts of the two
+    regions' ``T`` cancel in the sum, leaving a second-kind system
+    (Mueller's formulation, C. Mueller, Foundations of the Mathematical
+    Theory of Electromagnetic Waves, 1969; its unique solvability at every
+    real frequency: R. Kress and G. F. Roach, J. Math. Phys. 19, 1978).
 impedance (Leontovich / normal acoustic impedance)
     ``du/dn = lam u`` with ``lam = j k / z`` (TM and sound) or ``j k z``
     (TE), z normalised to the surrounding medium, n out of the body,
@@ -54,6 +63,7 @@ __all__ = [
     "Dirichlet",
     "Formulation",
     "Neumann",
+    "Penetrable",
     "Robin",
     "SideMap",
     "coupling_constants",
@@ -200,8 +210,45 @@ class Robin(Neumann):
         return self.lam
 
 
-def formulation_for(field: FieldKind, scatterer: Scatterer, k: complex) -> Formulation:
-    """The formulation of a body's boundary at wavenumber ``k`` of the surrounding medium.
+class Penetrable(Formulation):
+    """Interface between two media: unknowns ``u`` and ``dudn / |k_out|``, Mueller's rows.
+
+    ``ratio`` is ``beta_out / beta_in``, so that the inside normal
+    derivative is ``ratio`` times the outside one.
+    """
+
+    name = "penetrable"
+    unknowns_per_node = 2
+    has_inside = True
+
+    def __init__(self, ratio: complex, k_out: complex) -> None:
+        self.ratio = complex(ratio)
+        self.scale = abs(k_out)
+
+    def _map(self, n: int, factor: complex) -> SideMap:
+        u = np.zeros((n, 2), dtype=complex)
+        dudn = np.zeros((n, 2), dtype=complex)
+        e1 = np.zeros((n, 2), dtype=complex)
+        e2 = np.zeros((n, 2), dtype=complex)
+        u[:, 0] = 1.0
+        dudn[:, 1] = factor * self.scale
+        e1[:, 0] = 1.0
+        e2[:, 1] = 1.0 / self.scale
+        return SideMap(u, dudn, e1, e2)
+
+    def outside(self, k: complex, panel_length: FloatArray) -> SideMap:
+        return self._map(panel_length.size, 1.0)
+
+    def inside(self, k: complex, panel_length: FloatArray) -> SideMap:
+        return self._map(panel_length.size, self.ratio)
+
+
+def formulation_for(
+    field: FieldKind, scatterer: Scatterer, k: complex, *, flux_ratio: complex | None = None
+) -> Formulation:
+    """The formulation of a boundary at wavenumber ``k`` of the region its normal points into.
+
+    ``flux_ratio`` (``beta_out / beta_in``) is needed for penetrable bodies.
 
     Raises
     ------
@@ -209,6 +256,10 @@ def formulation_for(field: FieldKind, scatterer: Scatterer, k: complex) -> Formu
         If the boundary kind does not exist for ``field``.
     """
     kind = scatterer.boundary
+    if kind == "penetrable":
+        if flux_ratio is None:
+            raise ProblemError(f"body {scatterer.name!r}: a penetrable boundary needs both media")
+        return Penetrable(flux_ratio, k)
     if kind == "impedance":
         if scatterer.impedance is None:
             raise ProblemError(f"body {scatterer.name!r}: impedance boundary without an impedance")

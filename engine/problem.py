@@ -13,7 +13,17 @@ field kind
     ``tm`` (u = E_z), ``te`` (u = H_z) or ``acoustic`` (u = pressure p).
 boundary
     ``pec`` (TM: u = 0; TE: du/dn = 0), ``soft`` (u = 0), ``hard``
-    (du/dn = 0) or ``impedance`` (a Robin condition, see ``formulations``).
+    (du/dn = 0), ``impedance`` (a Robin condition, see ``formulations``)
+    or ``penetrable`` (the wave enters a body of another ``Material``;
+    u and beta du/dn are continuous across its boundary).
+beta
+    The coefficient of the continuous flux ``beta du/dn``: ``1 / mu_r``
+    for TM (u = E_z), ``1 / eps_r`` for TE (u = H_z), ``1 / density`` for
+    sound (DESIGN.md's one-scalar-field table).
+losses
+    exp(+j w t): a lossy permittivity is ``eps' (1 - j tan d) - j sigma /
+    (w eps0)``, and wavenumbers have a negative imaginary part so that
+    outgoing waves ``exp(-j k r)`` decay.
 incident wave
     One right-hand side: a plane wave arriving from ``from_deg`` or a unit
     line source at ``position_m``. Waves given together share a ``name``.
@@ -36,6 +46,7 @@ from sectionwave.importers.errors import SectionwaveError
 __all__ = [
     "BOUNDARIES",
     "DENSITY_AIR_KG_M3",
+    "EPS0_F_M",
     "FIELDS",
     "MU0_H_M",
     "SOUND_SPEED_AIR_M_S",
@@ -43,6 +54,7 @@ __all__ = [
     "BoundaryKind",
     "FieldKind",
     "IncidentWave",
+    "Material",
     "Medium",
     "NearFieldRequest",
     "Problem",
@@ -58,16 +70,18 @@ SOUND_SPEED_AIR_M_S = 343.0
 DENSITY_AIR_KG_M3 = 1.204
 #: Permeability of free space (SI 2019 value, to 10 digits).
 MU0_H_M = 1.25663706212e-6
+#: Permittivity of free space, 1 / (mu0 c^2).
+EPS0_F_M = 1.0 / (MU0_H_M * SPEED_OF_LIGHT_M_S**2)
 
 FieldKind = Literal["tm", "te", "acoustic"]
-BoundaryKind = Literal["pec", "soft", "hard", "impedance"]
+BoundaryKind = Literal["pec", "soft", "hard", "impedance", "penetrable"]
 
 FIELDS: tuple[FieldKind, ...] = ("tm", "te", "acoustic")
 #: Boundary kinds each field kind accepts.
 BOUNDARIES: dict[str, tuple[BoundaryKind, ...]] = {
-    "tm": ("pec", "impedance"),
-    "te": ("pec", "impedance"),
-    "acoustic": ("soft", "hard", "impedance"),
+    "tm": ("pec", "impedance", "penetrable"),
+    "te": ("pec", "impedance", "penetrable"),
+    "acoustic": ("soft", "hard", "impedance", "penetrable"),
 }
 
 
@@ -77,10 +91,17 @@ class ProblemError(SectionwaveError, ValueError):
 
 @dataclass(frozen=True)
 class Medium:
-    """A homogeneous, lossless medium: its wave speed and (for sound) density."""
+    """The surrounding medium (lossless): its wave speed and (for sound) density.
+
+    For EM it is vacuum (or air): ``beta = 1``; for sound ``beta = 1 / density``.
+    """
 
     wave_speed_m_s: float
     density_kg_m3: float = 0.0
+
+    def beta(self, field: FieldKind) -> float:
+        """Coefficient of the continuous flux ``beta du/dn`` in the surrounding medium."""
+        return 1.0 / self.density_kg_m3 if field == "acoustic" else 1.0
 
     def wavenumber(self, frequency_hz: float) -> float:
         """``k = 2 pi f / c`` in rad/m."""
@@ -92,12 +113,70 @@ class Medium:
 
 
 @dataclass(frozen=True)
+class Material:
+    """The filling of a penetrable body.
+
+    EM: relative permittivity and permeability (complex allowed), with an
+    optional loss tangent (of the permittivity) and conductivity (S/m,
+    converted at each frequency). Sound: sound speed (complex allowed) and
+    density, with an optional attenuation in dB per wavelength.
+    """
+
+    name: str = "material"
+    eps_r: complex = 1.0
+    mu_r: complex = 1.0
+    loss_tangent: float = 0.0
+    conductivity_s_m: float = 0.0
+    sound_speed_m_s: complex | None = None
+    density_kg_m3: float | None = None
+    attenuation_db_per_wavelength: float = 0.0
+
+    def permittivity(self, frequency_hz: float) -> complex:
+        """Complex relative permittivity at ``frequency_hz`` (exp(+j w t))."""
+        omega = 2 * math.pi * frequency_hz
+        eps = complex(self.eps_r) * (1 - 1j * self.loss_tangent)
+        return eps - 1j * self.conductivity_s_m / (omega * EPS0_F_M)
+
+    def sound_speed(self) -> complex:
+        """Complex sound speed (attenuation folded in: alpha = dB / (20 log10 e) per wavelength)."""
+        if self.sound_speed_m_s is None:
+            raise ProblemError(f"material {self.name!r} has no sound speed")
+        c = complex(self.sound_speed_m_s)
+        if self.attenuation_db_per_wavelength:
+            # k = (w / c) (1 - j delta) with delta = ln(10) dB / (40 pi): the field
+            # drops by that many dB over one wavelength.
+            delta = math.log(10.0) * self.attenuation_db_per_wavelength / (40.0 * math.pi)
+            c = c / (1 - 1j * delta)
+        return c
+
+    def wavenumber(self, field: FieldKind, frequency_hz: float) -> complex:
+        """Wavenumber inside the material; its imaginary part is never positive."""
+        omega = 2 * math.pi * frequency_hz
+        if field == "acoustic":
+            k = omega / self.sound_speed()
+        else:
+            k = omega / SPEED_OF_LIGHT_M_S * np.sqrt(complex(self.mu_r) * self.permittivity(frequency_hz))
+        return complex(k)
+
+    def beta(self, field: FieldKind, frequency_hz: float) -> complex:
+        """Coefficient of the continuous flux ``beta du/dn``."""
+        if field == "tm":
+            return 1.0 / complex(self.mu_r)
+        if field == "te":
+            return 1.0 / self.permittivity(frequency_hz)
+        if self.density_kg_m3 is None:
+            raise ProblemError(f"material {self.name!r} has no density")
+        return 1.0 / self.density_kg_m3
+
+
+@dataclass(frozen=True)
 class Scatterer:
     """One body and what its boundary is.
 
     ``impedance`` is normalised to the surrounding medium's wave impedance
-    (eta0 for EM, rho c for sound) and is set only for ``impedance``.
-    ``source`` says where the body came from, for reports.
+    (eta0 for EM, rho c for sound) and is set only for ``impedance``;
+    ``material`` is set only for ``penetrable`` bodies. ``source`` says
+    where the body came from, for reports.
     """
 
     name: str
@@ -105,6 +184,12 @@ class Scatterer:
     boundary: BoundaryKind
     impedance: complex | None = None
     source: str = "inline shape"
+    material: Material | None = None
+
+    @property
+    def is_penetrable(self) -> bool:
+        """True when the wave enters the body."""
+        return self.boundary == "penetrable"
 
 
 @dataclass(frozen=True)
@@ -196,6 +281,8 @@ class Problem:
                 )
             if (s.boundary == "impedance") != (s.impedance is not None):
                 raise ProblemError(f"body {s.name!r}: an impedance is given exactly for impedance boundaries")
+            if s.is_penetrable != (s.material is not None):
+                raise ProblemError(f"body {s.name!r}: a material is given exactly for penetrable bodies")
         if self.near_field is not None and any(
             not 0 <= i < len(self.incidents) for i in self.near_field.incidents
         ):

@@ -63,6 +63,10 @@ class FrequencySolution:
         Widths per plane-wave incidence, or None without plane waves.
     estimated_error
         The a-posteriori estimate (see ``adapt``).
+    dudn_inside
+        On penetrable bodies, the normal derivative (same normal) just
+        behind the boundary; NaN on impenetrable ones; None without
+        penetrable bodies. ``u`` is the same on both sides.
     """
 
     frequency_hz: float
@@ -84,6 +88,7 @@ class FrequencySolution:
     timings_s: dict[str, float]
     warnings: list[str] = field(default_factory=list)
     near_field: NearFieldResult | None = None
+    dudn_inside: ComplexArray | None = None
 
     @property
     def k(self) -> float:

@@ -13,17 +13,20 @@ One frequency, step by step::
 
 from __future__ import annotations
 
+import math
 import time
 import warnings
 from collections.abc import Callable
 
 import numpy as np
+from numpy.typing import NDArray
 
 from .adapt import AccuracyWarning, SolvePass, refine_until_accurate
 from .fields import cross_sections, far_field, far_field_each, incident_field
 from .formulations import formulation_for
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .problem import Problem
+from .regions import Layout, scene_layout
 from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings
 from .solve import (
     CONDITION_WARN,
@@ -33,7 +36,7 @@ from .solve import (
     fits_in_memory,
     solve_boundary,
 )
-from .system import BoundarySystem
+from .system import BoundarySystem, Region
 
 __all__ = ["METHOD", "panel_wavelengths", "solve_problem"]
 
@@ -80,34 +83,87 @@ def solve_problem(
     """
     start = time.perf_counter()
     active: LinearSolver = solver if solver is not None else DenseLU()
+    layout = scene_layout(problem)
     results = []
     for n, freq in enumerate(problem.frequencies_hz):
         if progress is not None:
             progress(f"frequency {n + 1}/{len(problem.frequencies_hz)}: {freq:.6g} Hz")
-        results.append(_solve_frequency(problem, freq, active))
+        results.append(_solve_frequency(_Scene(problem, layout, freq), active))
     s = problem.solver
     settings = RunSettings(s.tolerance, s.nodes_per_panel, panel_wavelengths(problem), s.max_refinements, METHOD)
     return RunResult(problem, results, settings, time.perf_counter() - start)
 
 
-def _system(problem: Problem, mesh: PanelMesh, k: float) -> BoundarySystem:
-    formulations = [
-        formulation_for(problem.field, problem.scatterers[int(b)], k) for b in mesh.body_of_contour
-    ]
-    return BoundarySystem(mesh, formulations, k)
+class _Scene:
+    """A problem at one frequency: the media of every region and the contours to mesh."""
+
+    def __init__(self, problem: Problem, layout: Layout, frequency_hz: float) -> None:
+        self.problem = problem
+        self.layout = layout
+        self.frequency_hz = frequency_hz
+        field = problem.field
+        self.k = problem.wavenumber(frequency_hz)
+        self.wavenumbers: list[complex] = []
+        self.betas: list[complex] = []
+        for region in layout.regions:
+            if region.body is None:
+                self.wavenumbers.append(self.k)
+                self.betas.append(problem.medium.beta(field))
+            else:
+                material = problem.scatterers[region.body].material
+                assert material is not None
+                self.wavenumbers.append(material.wavenumber(field, frequency_hz))
+                self.betas.append(material.beta(field, frequency_hz))
+        contours = layout.contours
+        self.exterior = layout.exterior_contours()
+        self.all_exterior = len(self.exterior) == len(contours)
+
+    def boundaries(self) -> list[BoundaryContour]:
+        """Contours to mesh, each limited by the shorter wavelength of its two sides."""
+        out = []
+        for c in self.layout.contours:
+            ks = [self.wavenumbers[c.outside]] + ([] if c.inside is None else [self.wavenumbers[c.inside]])
+            out.append(BoundaryContour(c.contour, c.body, min(2 * math.pi / abs(k) for k in ks)))
+        return out
+
+    def system(self, mesh: PanelMesh) -> BoundarySystem:
+        problem, layout = self.problem, self.layout
+        if layout.is_simple:
+            formulations = [
+                formulation_for(problem.field, problem.scatterers[int(b)], self.k) for b in mesh.body_of_contour
+            ]
+            return BoundarySystem(mesh, formulations, self.k)
+        formulations = []
+        for c in layout.contours:
+            ratio = None if c.inside is None else self.betas[c.outside] / self.betas[c.inside]
+            formulations.append(
+                formulation_for(problem.field, problem.scatterers[c.body], self.wavenumbers[c.outside], flux_ratio=ratio)
+            )
+        regions = [
+            Region(self.wavenumbers[r], layout.region_contours(r), is_unbounded=info.is_unbounded)
+            for r, info in enumerate(layout.regions)
+        ]
+        return BoundarySystem(mesh, formulations, self.k, regions)
+
+    def exterior_part(self, mesh: PanelMesh) -> tuple[PanelMesh, NDArray[np.int64] | None]:
+        """The mesh of the contours around the unbounded region and their node indices (None: all)."""
+        if self.all_exterior:
+            return mesh, None
+        nodes = np.concatenate([np.flatnonzero(mesh.contour_of_node == c) for c in self.exterior])
+        return mesh.subset(self.exterior), nodes
 
 
-def _fits(problem: Problem, solver: LinearSolver, k: float) -> Callable[[PanelMesh], bool]:
+def _fits(scene: _Scene, solver: LinearSolver) -> Callable[[PanelMesh], bool]:
     def fits(mesh: PanelMesh) -> bool:
-        return fits_in_memory(solver.memory_bytes(_system(problem, mesh, k).n_unknowns))
+        return fits_in_memory(solver.memory_bytes(scene.system(mesh).n_unknowns))
 
     return fits
 
 
-def _first_mesh(problem: Problem, freq: float, fits: Callable[[PanelMesh], bool]) -> tuple[PanelMesh, list[str]]:
+def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[PanelMesh, list[str]]:
     """The first mesh; when deep corner refinement would not fit, corners are refined less."""
-    lam = problem.wavelength(freq)
-    boundaries = [BoundaryContour(s.body.outer, i, lam) for i, s in enumerate(problem.scatterers)]
+    problem, freq = scene.problem, scene.frequency_hz
+    boundaries = scene.boundaries()
     tol = problem.solver.tolerance
     corner_tol = tol
     while True:
@@ -134,12 +190,13 @@ def _first_mesh(problem: Problem, freq: float, fits: Callable[[PanelMesh], bool]
     return mesh, notes
 
 
-def _solve_frequency(problem: Problem, freq: float, solver: LinearSolver) -> FrequencySolution:
-    k = problem.wavenumber(freq)
+def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
+    problem, freq = scene.problem, scene.frequency_hz
+    k = scene.k
     lam = problem.wavelength(freq)
     t_mesh = time.perf_counter()
-    fits = _fits(problem, solver, k)
-    mesh, notes = _first_mesh(problem, freq, fits)
+    fits = _fits(scene, solver)
+    mesh, notes = _first_mesh(scene, fits)
     mesh_s = time.perf_counter() - t_mesh
     incidents = problem.incidents
     plane = problem.plane_waves
@@ -147,12 +204,17 @@ def _solve_frequency(problem: Problem, freq: float, solver: LinearSolver) -> Fre
     angles = np.asarray(problem.far_field_deg, dtype=float)
 
     def evaluate(current: PanelMesh) -> SolvePass:
-        solution = solve_boundary(_system(problem, current, k), incidents, solver=solver)
+        system = scene.system(current)
+        ext_mesh, ext_nodes = scene.exterior_part(current)
+        solution = solve_boundary(system, incidents, solver=solver)
         t_ff = time.perf_counter()
-        ff = far_field(current, k, solution.u, solution.dudn, angles)
+        u, dudn = solution.u, solution.dudn
+        if ext_nodes is not None:
+            u, dudn = u[ext_nodes], dudn[ext_nodes]
+        ff = far_field(ext_mesh, k, u, dudn, angles)
         widths = None
         if plane:
-            widths = cross_sections(current, k, solution.u[:, plane], solution.dudn[:, plane], plane_from)
+            widths = cross_sections(ext_mesh, k, u[:, plane], dudn[:, plane], plane_from)
         return SolvePass(solution, ff, widths, time.perf_counter() - t_ff)
 
     adaptive = refine_until_accurate(
@@ -169,7 +231,9 @@ def _solve_frequency(problem: Problem, freq: float, solver: LinearSolver) -> Fre
     t_post = time.perf_counter()
     mono = np.full(len(incidents), np.nan + 0j)
     if plane:
-        mono[plane] = far_field_each(mesh, k, u[:, plane], dudn[:, plane], plane_from)
+        ext_mesh, ext_nodes = scene.exterior_part(mesh)
+        ue, de = (u, dudn) if ext_nodes is None else (u[ext_nodes], dudn[ext_nodes])
+        mono[plane] = far_field_each(ext_mesh, k, ue[:, plane], de[:, plane], plane_from)
     timings["far_field_s"] += time.perf_counter() - t_post
     notes += adaptive.notes
     condition = solution.report.condition_estimate
@@ -177,10 +241,11 @@ def _solve_frequency(problem: Problem, freq: float, solver: LinearSolver) -> Fre
         msg = f"at {freq:.6g} Hz the system condition number is {condition:.2e}"
         warnings.warn(msg, IllConditionedWarning, stacklevel=3)
         notes.append(msg)
+    inside = solution.system.inside_traces(solution.unknowns)
     near = None
     if problem.near_field is not None:
         t_near = time.perf_counter()
-        near = _near_fields(problem, mesh, k, u, dudn)
+        near = _near_fields(scene, solution.system, u, dudn, None if inside is None else inside[1])
         timings["near_field_s"] = time.perf_counter() - t_near
     return FrequencySolution(
         frequency_hz=freq,
@@ -202,15 +267,19 @@ def _solve_frequency(problem: Problem, freq: float, solver: LinearSolver) -> Fre
         timings_s=timings,
         warnings=notes,
         near_field=near,
+        dudn_inside=None if inside is None else inside[1],
     )
 
 
 def _near_fields(
-    problem: Problem, mesh: PanelMesh, k: float, u: np.ndarray, dudn: np.ndarray
+    scene: _Scene, system: BoundarySystem, u: np.ndarray, dudn: np.ndarray, dudn_inside: np.ndarray | None
 ) -> NearFieldResult:
     """Fields on the requested grid and at the probes for the selected incident waves."""
     from .nearfield import field_at_points, field_on_grid
 
+    problem = scene.problem
+    mesh = system.mesh
+    k = scene.k
     request = problem.near_field
     assert request is not None
     chosen = list(request.incidents)
@@ -220,8 +289,81 @@ def _near_fields(
         return incident_field(waves, points, np.zeros_like(points), k)[0]
 
     grid = probes = None
+    if scene.layout.is_simple:
+        if request.x_m is not None and request.y_m is not None:
+            grid = FieldSamples(**field_on_grid(mesh, k, u[:, chosen], dudn[:, chosen], incident, request.x_m, request.y_m))
+        if request.probes_m is not None:
+            probes = FieldSamples(**field_at_points(mesh, k, u[:, chosen], dudn[:, chosen], incident, request.probes_m))
+        return NearFieldResult(tuple(chosen), grid, request.x_m, request.y_m, probes, request.probes_m)
+    traces = (u[:, chosen], dudn[:, chosen], None if dudn_inside is None else dudn_inside[:, chosen])
     if request.x_m is not None and request.y_m is not None:
-        grid = FieldSamples(**field_on_grid(mesh, k, u[:, chosen], dudn[:, chosen], incident, request.x_m, request.y_m))
+        gx, gy = np.meshgrid(request.x_m, request.y_m)
+        pts = np.column_stack([gx.ravel(), gy.ravel()])
+        shape = gx.shape
+        res = _layered_fields(scene, mesh, traces, pts, incident)
+        grid = FieldSamples(**{key: val.reshape(shape + val.shape[1:]) for key, val in res.items()})
     if request.probes_m is not None:
-        probes = FieldSamples(**field_at_points(mesh, k, u[:, chosen], dudn[:, chosen], incident, request.probes_m))
+        probes = FieldSamples(**_layered_fields(scene, mesh, traces, request.probes_m, incident))
     return NearFieldResult(tuple(chosen), grid, request.x_m, request.y_m, probes, request.probes_m)
+
+
+def _point_regions(scene: _Scene, mesh: PanelMesh, pts: np.ndarray) -> np.ndarray:
+    """Region of every point; -1 inside an impenetrable body."""
+    from .nearfield import inside_mask
+
+    layout = scene.layout
+    region = np.zeros(pts.shape[0], dtype=np.int64)
+    for i in layout.bodies_outside_in():
+        own = [n for n, c in enumerate(layout.contours) if c.body == i]
+        outer = next(n for n in own if not layout.contours[n].is_hole)
+        holes = [n for n in own if layout.contours[n].is_hole]
+        in_outer = inside_mask(mesh.subset([outer]), pts)
+        spec = layout.contours[outer]
+        if spec.inside is None:
+            region[in_outer] = -1
+            continue
+        region[inside_mask(mesh.subset([outer, *holes]), pts)] = spec.inside
+        for h in holes:
+            in_hole = in_outer & ~inside_mask(mesh.subset([outer, h]), pts)
+            region[in_hole] = layout.contours[h].outside
+    return region
+
+
+def _layered_fields(
+    scene: _Scene,
+    mesh: PanelMesh,
+    traces: tuple[np.ndarray, np.ndarray, np.ndarray | None],
+    pts: np.ndarray,
+    incident: Callable[[np.ndarray], np.ndarray],
+) -> dict[str, np.ndarray]:
+    """Fields of nested bodies: each point from the representation of its own region.
+
+    In region R, ``u = sum s int (u dG_R/dn_y - G_R dudn_R) ds`` over R's
+    contours (s = +1 where the normal points into R), plus the incident
+    wave in the unbounded region. Inside penetrable bodies the reported
+    ``scattered`` field is ``total - incident``.
+    """
+    from .nearfield import scattered_field
+
+    u, dudn, dudn_in = traces
+    n_rhs = u.shape[1]
+    where = _point_regions(scene, mesh, pts)
+    total = np.full((pts.shape[0], n_rhs), np.nan + 1j * np.nan)
+    inc = total.copy()
+    for r in range(len(scene.layout.regions)):
+        sel = np.flatnonzero(where == r)
+        if sel.size == 0:
+            continue
+        members = scene.layout.region_contours(r)
+        sub = mesh.subset([c for c, _ in members])
+        nodes = [np.flatnonzero(mesh.contour_of_node == c) for c, _ in members]
+        su = np.concatenate([s * u[idx] for (_, s), idx in zip(members, nodes)])
+        sd = []
+        for (_, s), idx in zip(members, nodes):
+            side = dudn if s > 0 else dudn_in
+            assert side is not None
+            sd.append(s * side[idx])
+        field = scattered_field(sub, scene.wavenumbers[r], su, np.concatenate(sd), pts[sel])
+        inc[sel] = np.asarray(incident(pts[sel]), dtype=complex).reshape(sel.size, n_rhs)
+        total[sel] = field + inc[sel] if r == 0 else field
+    return {"total": total, "scattered": total - inc, "incident": inc, "inside": where < 0}

@@ -202,6 +202,28 @@ class BoundarySystem:
                 dudn[idx] += side.dudn[:, a, None] * xa
         return u, dudn
 
+    def inside_traces(self, x: ComplexArray) -> tuple[ComplexArray, ComplexArray] | None:
+        """``u`` and ``dudn`` (along the contour normal) behind interface contours; NaN elsewhere.
+
+        None when no contour is an interface.
+        """
+        if not any(f.has_inside for f in self.formulations):
+            return None
+        u = np.full((self.mesh.n_nodes, x.shape[1]), np.nan + 0j)
+        dudn = u.copy()
+        for c, f in enumerate(self.formulations):
+            if not f.has_inside:
+                continue
+            idx = self._nodes_of[c]
+            side = self._side_map(c, -1, self.k)
+            u[idx] = 0.0
+            dudn[idx] = 0.0
+            for a in range(side.u.shape[1]):
+                xa = x[self._slots(c, a)]
+                u[idx] += side.u[:, a, None] * xa
+                dudn[idx] += side.dudn[:, a, None] * xa
+        return u, dudn
+
     def node_unknowns(self, x: ComplexArray) -> list[ComplexArray]:
         """The unknowns as node arrays ``(n_nodes, n_rhs)``, one per unknown slot (zero where absent)."""
         if self.is_simple:

@@ -82,3 +82,76 @@ def case(field: str, frequency_hz: float, bodies: list[dict], *, from_deg=0.0, a
 
 SQUARE = {"kind": "rectangle", "width_m": 1.0, "height_m": 1.0}
 L_SHAPE = {"kind": "polygon", "points_m": [[0, 0], [1, 0], [1, 0.5], [0.5, 0.5], [0.5, 1], [0, 1]]}
+
+
+def layered_circle_coefficients(
+    k0: complex, beta0: complex, layers: list[tuple[float, complex, complex]], core: str, nmax: int,
+    core_radius: float | None = None,
+) -> tuple[np.ndarray, np.ndarray, list[np.ndarray]]:
+    """Series of a circular cylinder made of concentric layers, by matching at every interface.
+
+    ``layers`` lists ``(outer_radius, k, beta)`` from the innermost layer outward.
+    ``core`` is "medium" (layers[0] is a solid core), or "dirichlet" / "neumann"
+    (an impenetrable core of radius ``core_radius`` with u = 0 or du/dr = 0 inside
+    layers[0]). Fields per order n (dropping j^n e^{jn(phi - phi_i)}):
+    A J_n(k r) + B H_n^(2)(k r) in each layer (B = 0 in a solid core) and
+    J_n(k0 r) + c_n H_n^(2)(k0 r) outside; u and beta du/dr are continuous at
+    every interface (the transmission conditions of DESIGN.md's one-scalar-field
+    table; Balanis, Advanced Engineering Electromagnetics, ch. 11, treats the
+    one-layer and coated cases the same way). Returns n, c_n and per layer (A, B).
+    """
+    n = np.arange(-nmax, nmax + 1)
+    radii = [r for r, _, _ in layers]
+    media = [(k, b) for _, k, b in layers] + [(k0, beta0)]
+    n_layers = len(layers)
+    cols = [(0, 0)] if core == "medium" else [(0, 0), (0, 1)]
+    for i in range(1, n_layers):
+        cols += [(i, 0), (i, 1)]
+    cols.append((n_layers, 1))
+    c = np.empty(n.size, dtype=complex)
+    coefs = [np.zeros((n.size, 2), dtype=complex) for _ in range(n_layers)]
+    for row, m in enumerate(n):
+
+        def basis(layer: int, which: int, r: float, deriv: bool) -> complex:
+            k, beta = media[layer]
+            if which == 0:
+                v = k * sp.jvp(m, k * r) * beta if deriv else sp.jv(m, k * r)
+            else:
+                v = k * sp.h2vp(m, k * r) * beta if deriv else sp.hankel2(m, k * r)
+            return complex(v)
+
+        mat = np.zeros((len(cols), len(cols)), dtype=complex)
+        rhs = np.zeros(len(cols), dtype=complex)
+        eq = 0
+        if core != "medium":
+            for j, (lay, w) in enumerate(cols):
+                if lay == 0:
+                    mat[eq, j] = basis(0, w, core_radius, core == "neumann")
+            eq += 1
+        for i in range(n_layers):
+            r = radii[i]
+            for deriv in (False, True):
+                for j, (lay, w) in enumerate(cols):
+                    if lay == i:
+                        mat[eq, j] -= basis(lay, w, r, deriv)
+                    elif lay == i + 1:
+                        mat[eq, j] += basis(lay, w, r, deriv)
+                if i + 1 == n_layers:  # the incident wave's part of the exterior field
+                    rhs[eq] -= basis(n_layers, 0, r, deriv)
+                eq += 1
+        sol = np.linalg.solve(mat, rhs)
+        for j, (lay, w) in enumerate(cols):
+            if lay == n_layers:
+                c[row] = sol[j]
+            else:
+                coefs[lay][row, w] = sol[j]
+    return n, c, coefs
+
+
+def coefficients_far_field(n: np.ndarray, c: np.ndarray, k: float, angles_deg, from_deg: float) -> np.ndarray:
+    """F from the series coefficients c_n of a cylinder at the origin (same normalisation as above)."""
+    phi = np.deg2rad(np.asarray(angles_deg))
+    phi_i = np.deg2rad(from_deg)
+    return np.sqrt(2 / (np.pi * k)) * np.exp(0.25j * np.pi) * (
+        np.exp(1j * np.outer(phi - phi_i, n)) @ ((-1.0) ** np.abs(n) * c)
+    )
