@@ -30,7 +30,7 @@ from sectionwave.importers.errors import GeometryError
 
 from .quadrature import differentiation_matrix, gauss_legendre, legendre_analysis_matrix
 
-__all__ = ["BoundaryContour", "PanelMesh", "build_panels", "corner_levels_for", "regrade"]
+__all__ = ["BoundaryContour", "PanelMesh", "build_panels", "corner_levels_for", "regrade", "transmission_exponent"]
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
@@ -57,11 +57,16 @@ MAX_PANELS = 200_000
 
 @dataclass(frozen=True)
 class BoundaryContour:
-    """A contour to be meshed and the wavelength that limits its panels."""
+    """A contour to be meshed and the wavelength that limits its panels.
+
+    ``flux_ratio`` (``beta_out / beta_in``) is set for interfaces between
+    two media; it sets how singular the fields at its corners are.
+    """
 
     contour: Contour
     body: int
     wavelength_m: float
+    flux_ratio: complex | None = None
 
 
 @dataclass
@@ -207,7 +212,36 @@ class PanelMesh:
         )
 
 
-def _corner_levels(mesh: PanelMesh, panel: int, prev: IntArray, cap: int, tolerance: float) -> int:
+def transmission_exponent(interior_angle: float, flux_ratio: complex) -> float:
+    """Smallest exponent ``nu > 0`` of ``u ~ r^nu`` at a corner between two media.
+
+    With ``u = r^nu f(phi)`` in the wedge of angle ``theta`` (coefficient
+    ``beta_in``) and outside it (``beta_out``), continuity of ``u`` and
+    ``beta du/dphi`` gives, for the even and odd parts,
+    ``beta_in tan(nu theta/2) + beta_out tan(nu (pi - theta/2)) = 0`` and
+    ``beta_in cot(nu theta/2) + beta_out cot(nu (pi - theta/2)) = 0``
+    (the dielectric-wedge analysis of Meixner, IEEE Trans. AP-20, 1972,
+    from memory; derived again here). Equal media give ``nu = 1`` (smooth).
+    """
+    b_in, b_out = 1.0, float(np.real(flux_ratio))
+    half = 0.5 * interior_angle
+    nu = np.linspace(1e-4, 1.0, 20001)
+    best = 1.0
+    for fn in (
+        lambda v: b_in * np.sin(v * half) * np.cos(v * (np.pi - half)) + b_out * np.sin(v * (np.pi - half)) * np.cos(v * half),
+        lambda v: b_in * np.cos(v * half) * np.sin(v * (np.pi - half)) + b_out * np.cos(v * (np.pi - half)) * np.sin(v * half),
+    ):
+        vals = fn(nu)
+        flips = np.flatnonzero(np.sign(vals[:-1]) * np.sign(vals[1:]) < 0)
+        if flips.size:
+            best = min(best, float(nu[flips[0] + 1]))
+    return best
+
+
+def _corner_levels(
+    mesh: PanelMesh, panel: int, prev: IntArray, cap: int, tolerance: float,
+    flux_ratio: complex | None = None,
+) -> int:
     """Dyadic levels the corner at the start of ``panel`` needs.
 
     Near a corner whose exterior (field-side) angle is ``alpha`` the fields
@@ -223,7 +257,10 @@ def _corner_levels(mesh: PanelMesh, panel: int, prev: IntArray, cap: int, tolera
     t_out = seg_out.tangent(mesh.t0[panel])[0]
     turn = math.atan2(t_in[0] * t_out[1] - t_in[1] * t_out[0], float(np.dot(t_in, t_out)))
     alpha = math.pi + turn  # exterior angle: a convex right-angle corner has 3 pi / 2
-    nu = math.pi / max(alpha, 1e-3)
+    if flux_ratio is None:
+        nu = math.pi / max(alpha, 1e-3)
+    else:
+        nu = transmission_exponent(2 * math.pi - alpha, flux_ratio)
     if abs(nu - round(nu)) < 1e-3:
         return min(cap, 4)
     want = math.ceil(0.8 * math.log2(1.0 / tolerance) / nu)
@@ -307,6 +344,7 @@ def build_panels(
     if not boundaries:
         raise GeometryError("nothing to mesh: the scene has no boundary")
     corner_tol = tolerance if corner_tolerance is None else corner_tolerance
+    ratios = [b.flux_ratio for b in boundaries]
     levels = corner_levels_for(corner_tol) if corner_levels is None else int(corner_levels)
     geo_tol = max(1e-14, 0.01 * tolerance)
     segments: list[Segment] = []
@@ -357,7 +395,10 @@ def build_panels(
         prev, nxt = mesh.neighbours()
         corner_pan = np.flatnonzero(mesh.corner_at_start)
         if corner_levels is None:
-            need = np.array([_corner_levels(mesh, int(i), prev, levels, corner_tol) for i in corner_pan], dtype=int)
+            need = np.array([
+                _corner_levels(mesh, int(i), prev, levels, corner_tol, ratios[int(mesh.contour_of_panel[i])])
+                for i in corner_pan
+            ], dtype=int)
         else:
             need = np.full(corner_pan.size, min(levels, MAX_CORNER_LEVELS))
         corner_pan = corner_pan[need > level]

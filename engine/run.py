@@ -123,7 +123,8 @@ class _Scene:
         out = []
         for c in self.layout.contours:
             ks = [self.wavenumbers[c.outside]] + ([] if c.inside is None else [self.wavenumbers[c.inside]])
-            out.append(BoundaryContour(c.contour, c.body, min(2 * math.pi / abs(k) for k in ks)))
+            ratio = None if c.inside is None else self.betas[c.outside] / self.betas[c.inside]
+            out.append(BoundaryContour(c.contour, c.body, min(2 * math.pi / abs(k) for k in ks), ratio))
         return out
 
     def system(self, mesh: PanelMesh) -> BoundarySystem:
