@@ -500,7 +500,6 @@ GRID = {"x_m": [-2.0, 2.0], "y_m": [-1.0, 1.0], "count": [5, 3]}
         ({"x_m": [-1, 1], "count": [2, 2]}, "y_m", "must be a pair of finite numbers"),
         ({"y_m": [-1, 1], "count": [2, 2]}, "x_m", "must be a pair of finite numbers"),
         ({"x_m": [1, -1], "y_m": [-1, 1], "count": [2, 2]}, "x_m", "ranges must be [min, max] with min < max"),
-        ({"x_m": [-1, 1], "y_m": [1, 1], "count": [2, 2]}, "x_m", "ranges must be [min, max] with min < max"),
         ({"x_m": [-1, 1], "y_m": [-1, 1]}, "spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]"),
         ({"x_m": [-1, 1], "y_m": [-1, 1], "count": [2, 2], "spacing_m": 0.1}, "spacing_m", "give exactly one of"),
         ({"x_m": [-1, 1], "y_m": [-1, 1], "spacing_m": -0.1}, "spacing_m", "must be positive"),
@@ -509,7 +508,6 @@ GRID = {"x_m": [-2.0, 2.0], "y_m": [-1.0, 1.0], "count": [5, 3]}
         ({"x_m": [-1, 1], "y_m": [-1, 1], "count": [2.5, 3]}, "count", "must be [nx, ny] positive integers"),
         ({"x_m": [-1, 1], "y_m": [-1, 1], "count": [True, 3]}, "count", "must be [nx, ny] positive integers"),
         ({"x_m": [-1, 1], "y_m": [-1, 1], "spacing_m": 1e-4}, "spacing_m", "asks for 20001 x 20001 points; at most 25 million"),
-        ({"x_m": [-1, 1], "y_m": [-1, 1], "count": [6000, 6000]}, "spacing_m", "at most 25 million"),
         ({}, "x_m", "give a grid (x_m, y_m, spacing_m or count) or probes_csv"),
         ({"from_deg": 0}, "x_m", "give a grid"),
         ({**GRID, "colour": 1}, "colour", "is not a known key here"),
@@ -517,6 +515,19 @@ GRID = {"x_m": [-2.0, 2.0], "y_m": [-1.0, 1.0], "count": [5, 3]}
     ],
 )
 def test_near_field_errors(table, key, fragment):
+    fails(base(near_field=table), f"[near_field.{key}]", fragment)
+
+
+@pytest.mark.xfail(strict=True, reason="the message names [near_field.x_m] for a bad y_m range and "
+                   "[near_field.spacing_m] for a count that asks for too many points")
+@pytest.mark.parametrize(
+    "table,key,fragment",
+    [
+        ({"x_m": [-1, 1], "y_m": [1, 1], "count": [2, 2]}, "y_m", "min < max"),
+        ({"x_m": [-1, 1], "y_m": [-1, 1], "count": [6000, 6000]}, "count", "at most 25 million"),
+    ],
+)
+def test_near_field_errors_name_the_key_the_user_wrote(table, key, fragment):
     fails(base(near_field=table), f"[near_field.{key}]", fragment)
 
 
