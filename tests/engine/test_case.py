@@ -410,6 +410,39 @@ def test_missing_drawing_names_the_path(tmp_path):
     assert str(tmp_path / "absent.dxf") in str(info.value)
 
 
+def box_with_cavity(tmp_path) -> dict:
+    """A 1 m square on layer BOX with a closed 0.2 m square cavity in its middle (DXF in metres)."""
+    import ezdxf
+
+    drawing = ezdxf.new()
+    drawing.header["$INSUNITS"] = 6  # metres
+    msp = drawing.modelspace()
+    msp.add_lwpolyline([(0, 0), (1, 0), (1, 1), (0, 1)], close=True, dxfattribs={"layer": "BOX"})
+    msp.add_lwpolyline([(0.4, 0.4), (0.6, 0.4), (0.6, 0.6), (0.4, 0.6)], close=True, dxfattribs={"layer": "BOX"})
+    drawing.saveas(tmp_path / "box.dxf")
+    return base(geometry={"file": "box.dxf"}, body=[{"name": "box", "layer": "BOX", "boundary": "pec"}])
+
+
+def test_body_with_a_cavity_is_noted(tmp_path):
+    case = parse_case(box_with_cavity(tmp_path), source=SRC, base_dir=tmp_path)
+    s = case.problem.scatterers[0]
+    assert (s.name, s.source, len(s.body.holes)) == ("box", "layer BOX", 1)
+    assert s.body.area() == pytest.approx(1.0 - 0.04, rel=1e-12)
+    assert case.output.notes == ("body 'box' has 1 hole(s): closed cavities of an impenetrable body do not "
+                                 "affect the exterior field and are not meshed",)
+    assert case.output.drawing_audit["units"] == "m"
+    assert case.output.drawing_audit["file"] == str(tmp_path / "box.dxf")
+
+
+@pytest.mark.xfail(strict=True, reason="a line source in a closed cavity passes the 'outside every body' "
+                   "check (Body.contains excludes holes) although the cavity is not meshed and the "
+                   "exterior problem treats it as inside the body")
+def test_line_source_in_a_cavity_is_refused(tmp_path):
+    doc = box_with_cavity(tmp_path)
+    doc["incident"] = [{"kind": "line", "position_m": [0.5, 0.5]}]
+    fails(doc, "[incident.0.position_m]", "is inside body 'box'", base_dir=tmp_path)
+
+
 @pytest.mark.xfail(strict=True, reason="'known keys' lists only the keys read on this path: a typo in "
                    "[geometry] lists only 'file', a typo in [near_field] omits the grid keys")
 @pytest.mark.parametrize(
@@ -455,6 +488,15 @@ def test_incident_empty():
 )
 def test_incident_errors(inc, key, fragment):
     fails(base(incident=[{"kind": "plane", "from_deg": 10.0}, inc]), f"[incident.1.{key}]", fragment)
+
+
+@pytest.mark.xfail(strict=True, reason="Body.contains tests points against an inscribed 64-point polygon, so "
+                   "a source within the sagitta r (1 - cos(pi/64)) of a curved surface counts as outside")
+def test_line_source_just_inside_a_curved_surface_is_refused():
+    # 0.3 mm inside the 0.5 m circle, midway between two of its sample points
+    a = math.pi / 64
+    pos = [0.4997 * math.cos(a), 0.4997 * math.sin(a)]
+    fails(base(incident=[{"kind": "line", "position_m": pos}]), "[incident.0.position_m]", "is inside body 'c'")
 
 
 def test_duplicate_incident_names():
