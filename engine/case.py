@@ -47,6 +47,7 @@ from typing import Any, cast
 import numpy as np
 import tomllib
 from sectionwave.importers.curves import (
+    CONTAINS_SAMPLES,
     Body,
     Contour,
     EllipticalArc,
@@ -87,6 +88,29 @@ class Case:
 
     problem: Problem
     output: OutputOptions
+
+
+MATERIAL_KEYS = (
+    "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
+    "sound_speed_m_s", "density_kg_m3", "attenuation_db_per_wavelength",
+)
+#: Every key each table allows (for the "known keys" list of an error).
+KNOWN_KEYS: dict[str, tuple[str, ...]] = {
+    "": ("title", "wave", "geometry", "materials", "body", "incident", "far_field", "near_field", "solver", "output"),
+    "wave": ("field", "frequency_hz", "sound_speed_m_s", "density_kg_m3"),
+    "geometry": ("file", "units", "gap_tol_m"),
+    "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
+    "far_field": ("angles_deg",),
+    "near_field": ("x_m", "y_m", "spacing_m", "count", "probes_csv", "from_deg"),
+    "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements"),
+    "output": ("time_convention", "plots", "vtk"),
+}
+SHAPE_KEYS: dict[str, tuple[str, ...]] = {
+    "circle": ("kind", "radius_m", "center_m"),
+    "ellipse": ("kind", "semi_axes_m", "center_m", "rotation_deg"),
+    "rectangle": ("kind", "width_m", "height_m", "center_m", "rotation_deg", "corner_radius_m"),
+    "polygon": ("kind", "points_m", "center_m", "rotation_deg"),
+}
 
 
 class _Reader:
@@ -168,11 +192,13 @@ class _Reader:
             raise self.fail(key, f"must hold finite numbers, got {v!r}")
         return float(v)
 
-    def finish(self) -> None:
-        unknown = sorted(set(self.table) - self.used)
+    def finish(self, known: tuple[str, ...] = ()) -> None:
+        """Refuse any key that is neither read nor listed in ``known`` (every key the table allows)."""
+        allowed = set(known) | self.used
+        unknown = sorted(set(self.table) - allowed)
         if unknown:
             raise self.fail(
-                unknown[0], f"is not a known key here; known keys: {', '.join(sorted(self.used))}"
+                unknown[0], f"is not a known key here; known keys: {', '.join(sorted(allowed))}"
             )
 
 
@@ -225,7 +251,7 @@ def _inline_shape(r: _Reader) -> Body:
         arr = np.array(pts, dtype=float) @ rot.T + center
         contour = Contour(polygon_segments(arr))
         _check_simple_polygon(r, arr)
-    r.finish()
+    r.finish(SHAPE_KEYS[kind])
     return Body(contour)
 
 
@@ -310,14 +336,14 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     else:
         ffr.used.add("angles_deg")
         angles = np.linspace(0.0, 360.0, 721)
-    ffr.finish()
+    ffr.finish(KNOWN_KEYS["far_field"])
     solver = _solver(_Reader(source, top.get("solver") or {}, "solver"))
     output = _output(_Reader(source, top.get("output") or {}, "output"), title, source, audit, notes)
     near = None
     if top.has("near_field"):
         near = _near_field(_Reader(source, top.get("near_field"), "near_field"), base_dir, incidents)
     top.used.update({"body", "incident"})
-    top.finish()
+    top.finish(KNOWN_KEYS[""])
     problem = Problem(
         field=field_kind,
         medium=medium,
@@ -341,14 +367,8 @@ def _wave(wave: _Reader) -> tuple[Any, tuple[float, ...], Medium]:
         density = wave.number("density_kg_m3", DENSITY_AIR_KG_M3, positive=True)
     else:
         speed, density = SPEED_OF_LIGHT_M_S, 0.0
-    wave.finish()
+    wave.finish(KNOWN_KEYS["wave"] if field_kind == "acoustic" else ("field", "frequency_hz"))
     return field_kind, freqs, Medium(speed, density)
-
-
-MATERIAL_KEYS = (
-    "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
-    "sound_speed_m_s", "density_kg_m3", "attenuation_db_per_wavelength",
-)
 
 
 def _complex_value(r: _Reader, key: str, default: complex) -> complex:
@@ -393,7 +413,7 @@ def _materials(top: _Reader, source: str) -> dict[str, Material]:
             raise CaseError(f"{source}: [materials.{name}] must be a table of material keys ({', '.join(MATERIAL_KEYS)})")
         mr = _Reader(source, spec, f"materials.{name}")
         table[name] = _material(mr, name)
-        mr.finish()
+        mr.finish(MATERIAL_KEYS)
     return table
 
 
@@ -451,7 +471,7 @@ def _bodies(
             if drawing is None:
                 raise br.fail(picks[0], "needs a [geometry] file to pick bodies from")
             found, where = _pick_from_drawing(br, picks[0], drawing)
-        br.finish()
+        br.finish(KNOWN_KEYS["body"])
         for n, body in enumerate(found):
             label = name if len(found) == 1 else f"{name}.{n + 1}"
             kind = cast(BoundaryKind, boundary)  # one of BOUNDARIES[field_kind], checked above
@@ -485,10 +505,11 @@ def _incidents(top: _Reader, source: str, bodies: list[Scatterer]) -> list[Incid
         else:
             pos = ir.point("position_m")
             for b in bodies:
-                if bool(b.body.contains([pos])[0]):
+                # the outline decides: a closed cavity is not meshed, so it counts as inside
+                if bool(Body(b.body.outer).contains([pos])[0]):
                     raise ir.fail("position_m", f"{list(pos)} m is inside body {b.name!r}; a line source must be outside every body")
             incidents.append(IncidentWave(name, "line", position_m=pos))
-        ir.finish()
+        ir.finish(("kind", "name", "from_deg") if kind == "plane" else ("kind", "name", "position_m"))
     if len(set(names)) != len(names):
         raise top.fail("incident", f"names must differ, got {names}")
     return incidents
@@ -506,7 +527,7 @@ def _solver(sr: _Reader) -> SolverOptions:
     refinements = sr.get("max_refinements", 10)
     if isinstance(refinements, bool) or not isinstance(refinements, int) or not 0 <= refinements <= 20:
         raise sr.fail("max_refinements", f"must be an integer from 0 to 20, got {refinements!r}")
-    sr.finish()
+    sr.finish(KNOWN_KEYS["solver"])
     return SolverOptions(tol, int(p), mpw, int(refinements))
 
 
@@ -519,7 +540,7 @@ def _output(
     for key, val in (("plots", plots), ("vtk", vtk)):
         if not isinstance(val, bool):
             raise orr.fail(key, f"must be true or false, got {val!r}")
-    orr.finish()
+    orr.finish(KNOWN_KEYS["output"])
     return OutputOptions(
         time_convention=cast(TimeConvention, convention),  # checked against TIME_CONVENTIONS above
         plots=bool(plots),
@@ -535,8 +556,9 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
     x = y = probes = None
     if r.has("x_m") or r.has("y_m"):
         xr, yr = r.point("x_m"), r.point("y_m")
-        if xr[1] <= xr[0] or yr[1] <= yr[0]:
-            raise r.fail("x_m", "ranges must be [min, max] with min < max")
+        for key, (lo, hi) in (("x_m", xr), ("y_m", yr)):
+            if hi <= lo:
+                raise r.fail(key, f"must be [min, max] with min < max, got {[lo, hi]}")
         if r.has("spacing_m") == r.has("count"):
             raise r.fail("spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]")
         if r.has("spacing_m"):
@@ -550,7 +572,8 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
                 raise r.fail("count", f"must be [nx, ny] positive integers, got {cnt!r}")
             nx, ny = cnt
         if nx * ny > 25_000_000:
-            raise r.fail("spacing_m", f"asks for {nx} x {ny} points; at most 25 million")
+            raise r.fail("spacing_m" if r.has("spacing_m") else "count",
+                         f"asks for {nx} x {ny} points; at most 25 million")
         x = np.linspace(xr[0], xr[1], nx)
         y = np.linspace(yr[0], yr[1], ny)
     if r.has("probes_csv"):
@@ -575,7 +598,7 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
         )
     else:
         chosen = tuple(range(len(incidents)))
-    r.finish()
+    r.finish(KNOWN_KEYS["near_field"])
     return NearFieldRequest(chosen, x, y, probes)
 
 
@@ -604,7 +627,7 @@ def _check_disjoint(source: str, bodies: list[Scatterer]) -> None:
     """Bodies may not overlap or touch, except one lying strictly inside a penetrable one."""
     from shapely.geometry import Polygon
 
-    polys = [Polygon(b.body.outer.sample(64)) for b in bodies]
+    polys = [Polygon(b.body.outer.sample(CONTAINS_SAMPLES)) for b in bodies]
     for i in range(len(polys)):
         for j in range(i + 1, len(polys)):
             if not polys[i].intersects(polys[j]):
@@ -634,7 +657,7 @@ def _load_geometry(r: _Reader, base_dir: Path | None) -> tuple[Any, dict[str, An
         path = base_dir / path
     units = r.text("units") if r.has("units") else None
     gap = r.number("gap_tol_m", positive=True) if r.has("gap_tol_m") else None
-    r.finish()
+    r.finish(KNOWN_KEYS["geometry"])
     drawing = read_drawing(path, units=units)
     cleaned = clean_drawing(drawing, gap_tol_m=gap)
     cleaned.raise_for_errors()
