@@ -23,7 +23,16 @@ from .adapt import AccuracyWarning  # noqa: E402
 from .case import Case, CaseError, load_case, parse_case  # noqa: E402
 from .conventions import TimeConvention  # noqa: E402
 from .export.options import OutputOptions  # noqa: E402
-from .problem import IncidentWave, Medium, NearFieldRequest, Problem, Scatterer, SolverOptions  # noqa: E402
+from .problem import (  # noqa: E402
+    IncidentWave,
+    Material,
+    Medium,
+    NearFieldRequest,
+    Problem,
+    ProblemError,
+    Scatterer,
+    SolverOptions,
+)
 from .results import FrequencySolution, RunResult  # noqa: E402
 from .run import solve_problem  # noqa: E402
 from .solve import IllConditionedWarning, ProblemTooLargeError  # noqa: E402
@@ -57,10 +66,12 @@ __all__ = [
     "FrequencySolution",
     "IllConditionedWarning",
     "IncidentWave",
+    "Material",
     "Medium",
     "NearFieldRequest",
     "OutputOptions",
     "Problem",
+    "ProblemError",
     "ProblemTooLargeError",
     "RunResult",
     "Scatterer",

@@ -24,7 +24,7 @@ from sectionwave.importers.curves import Contour
 
 from .problem import Problem, ProblemError
 
-__all__ = ["Layout", "MeshedContour", "RegionInfo", "scene_layout"]
+__all__ = ["Layout", "MeshedContour", "RegionInfo", "check_corner_contrast", "corner_angles", "scene_layout"]
 
 
 @dataclass(frozen=True)
@@ -87,6 +87,63 @@ class Layout:
             elif c.inside == region:
                 out.append((i, -1))
         return tuple(out)
+
+
+def corner_angles(contour: Contour) -> list[tuple[tuple[float, float], float]]:
+    """``(point, angle)`` of every corner, the angle measured inside the body (radians).
+
+    The body lies to the left of the direction of travel (outer contours
+    counter-clockwise, holes clockwise), so the inside angle is ``pi``
+    minus the signed turn of the tangent at the joint.
+    """
+    import math
+
+    out = []
+    flags = contour.corner_flags()
+    for i, seg in enumerate(contour.segments):
+        if not flags[i]:
+            continue
+        t_in = contour.segments[i - 1].tangent(1.0)[0]
+        t_out = seg.tangent(0.0)[0]
+        turn = math.atan2(t_in[0] * t_out[1] - t_in[1] * t_out[0], float(t_in @ t_out))
+        p = seg.start
+        out.append(((float(p[0]), float(p[1])), math.pi - turn))
+    return out
+
+
+def check_corner_contrast(layout: Layout, betas: list[complex], names: list[str]) -> None:
+    """Refuse a corner whose flux-coefficient contrast makes the problem ill-posed.
+
+    With ``kappa = beta_in / beta_out`` real and negative (plasmonic or
+    metamaterial media), a corner of inside angle ``theta`` admits
+    infinitely oscillating fields and no unique solution when
+    ``-b <= kappa <= -1/b``, ``b = max(theta, 2 pi - theta) / min(...)``
+    (for a right angle, ``-3 <= eps_r <= -1/3``; Bonnet-Ben Dhia, Chesnel
+    and Ciarlet, and DESIGN.md). Real parts are compared; losses smooth the
+    singularity but do not make the discretised problem trustworthy.
+
+    Raises
+    ------
+    ProblemError
+        Naming the body, the corner and the contrast.
+    """
+    import math
+
+    for c in layout.contours:
+        if c.inside is None:
+            continue
+        kappa = complex(betas[c.inside] / betas[c.outside])
+        if kappa.real >= 0:
+            continue
+        for (x, y), theta in corner_angles(c.contour):
+            small = min(theta, 2 * math.pi - theta)
+            b = max(theta, 2 * math.pi - theta) / max(small, 1e-12)
+            if -b <= kappa.real <= -1.0 / b:
+                raise ProblemError(
+                    f"body {names[c.body]!r}: the corner at ({x:.6g}, {y:.6g}) m ({math.degrees(theta):.1f} deg) "
+                    f"with a contrast of {kappa.real:.3g} between the media is ill-posed (contrasts from "
+                    f"{-b:.3g} to {-1 / b:.3g} are); round the corner or check the material"
+                )
 
 
 def _polygon(contour: Contour):

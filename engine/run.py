@@ -26,7 +26,7 @@ from .fields import cross_sections, far_field, far_field_each, incident_field
 from .formulations import formulation_for
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .problem import Problem
-from .regions import Layout, scene_layout
+from .regions import Layout, check_corner_contrast, scene_layout
 from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings
 from .solve import (
     CONDITION_WARN,
@@ -115,6 +115,8 @@ class _Scene:
                 self.wavenumbers.append(material.wavenumber(field, frequency_hz))
                 self.betas.append(material.beta(field, frequency_hz))
         contours = layout.contours
+        if not layout.is_simple:
+            check_corner_contrast(layout, self.betas, [s.name for s in problem.scatterers])
         self.exterior = layout.exterior_contours()
         self.all_exterior = len(self.exterior) == len(contours)
 

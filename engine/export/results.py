@@ -33,6 +33,7 @@ import numpy as np
 
 from ..conventions import CONVENTION_TEXT, DB_FLOOR, TimeConvention
 from ..fields import echo_width, surface_quantities
+from ..problem import Scatterer
 from ..results import FrequencySolution, RunResult
 from .atomic import atomic_write_text
 from .options import OutputOptions
@@ -128,6 +129,9 @@ def write_run(
             u = _conv(fr.u[:, m], conv)
             dudn = _conv(fr.dudn[:, m], conv)
             block.update({"u_re": u.real, "u_im": u.imag, "dudn_re": dudn.real, "dudn_im": dudn.imag})
+            if fr.dudn_inside is not None:
+                inner = _conv(fr.dudn_inside[:, m], conv)
+                block.update({"dudn_inside_re": inner.real, "dudn_inside_im": inner.imag})
             for name, values in phys.items():
                 v = _conv(values[:, m], conv)
                 stem, unit = _split_unit(name)
@@ -230,18 +234,7 @@ def summary_dict(
             "field": problem.field,
             "frequencies_hz": list(problem.frequencies_hz),
             "wave_speed_m_s": problem.medium.wave_speed_m_s,
-            "bodies": [
-                {
-                    "name": b.name,
-                    "boundary": b.boundary,
-                    "impedance": None if b.impedance is None else [b.impedance.real, b.impedance.imag],
-                    "source": b.source,
-                    "area_m2": b.body.area(),
-                    "perimeter_m": b.body.outer.perimeter(),
-                    "holes_ignored": len(b.body.holes),
-                }
-                for b in problem.scatterers
-            ],
+            "bodies": [_body_summary(b) for b in problem.scatterers],
             "incidents": list(groups.values()),
             "far_field_angles": int(np.size(problem.far_field_deg)),
             "solver": {
@@ -261,6 +254,33 @@ def summary_dict(
     }
 
 
+def _body_summary(b: Scatterer) -> dict[str, Any]:
+    entry: dict[str, Any] = {
+        "name": b.name,
+        "boundary": b.boundary,
+        "impedance": None if b.impedance is None else [b.impedance.real, b.impedance.imag],
+        "source": b.source,
+        "area_m2": b.body.area(),
+        "perimeter_m": b.body.outer.perimeter(),
+        "holes_ignored": 0 if b.is_penetrable else len(b.body.holes),
+    }
+    if b.material is not None:
+        m = b.material
+        pair = lambda z: None if z is None else [complex(z).real, complex(z).imag]  # noqa: E731
+        entry["material"] = {
+            "name": m.name,
+            "eps_r": pair(m.eps_r),
+            "mu_r": pair(m.mu_r),
+            "loss_tangent": m.loss_tangent,
+            "conductivity_s_m": m.conductivity_s_m,
+            "sound_speed_m_s": pair(m.sound_speed_m_s),
+            "density_kg_m3": m.density_kg_m3,
+            "attenuation_db_per_wavelength": m.attenuation_db_per_wavelength,
+        }
+        entry["holes"] = len(b.body.holes)
+    return entry
+
+
 def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention) -> list[str]:
     from .vtk import write_boundary_vtu, write_sweep_pvd
 
@@ -272,6 +292,8 @@ def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention) 
         for m, wave in enumerate(fr.incidents):
             name = f"boundary_f{nf:03d}_i{m:03d}.vtu"
             fields = {"u": fr.u[:, m], "dudn": fr.dudn[:, m]}
+            if fr.dudn_inside is not None:
+                fields["dudn_inside"] = fr.dudn_inside[:, m]
             fields.update({k: v[:, m] for k, v in phys.items()})
             write_boundary_vtu(
                 out_dir / name, mesh.nodes, mesh.normals, mesh.body_of_node, mesh.contour_of_node,

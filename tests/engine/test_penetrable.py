@@ -238,3 +238,18 @@ def test_named_and_built_in_materials():
     a = parse_case(doc).problem.scatterers[0].material
     eps0 = 8.8541878128e-12  # CODATA 2018 (from memory)
     assert a.permittivity(1e9).imag == pytest.approx(-0.01 / (2 * math.pi * 1e9 * eps0), rel=1e-9)
+
+
+def test_plasmonic_corner_is_refused_and_smooth_body_is_not():
+    # eps_r = -2 at a right-angle corner lies in the ill-posed interval (-3, -1/3)
+    # (Bonnet-Ben Dhia, Chesnel & Ciarlet, from memory; DESIGN.md); a circle has no corner.
+    from sectionwave.engine import ProblemError
+
+    doc = case("te", 1e8, [{"name": "b", "shape": SQUARE, "boundary": "penetrable", "eps_r": -2.0}])
+    with pytest.raises(ProblemError, match=r"corner at \(-0.5, -0.5\) m \(90.0 deg\).*ill-posed"):
+        solve_problem(parse_case(doc).problem)
+    ka = 1.0
+    fr = _run("te", ka, [_circle(1.0, boundary="penetrable", eps_r=[-2.0, -0.5])])
+    eps = -2.0 - 0.5j
+    n, c, _ = layered_circle_coefficients(ka, 1.0, [(1.0, ka * np.sqrt(eps), 1 / eps)], "medium", 40)
+    assert relative_error(fr.farfield[:, 0], coefficients_far_field(n, c, ka, fr.angles_deg, FROM)) < 1e-8
