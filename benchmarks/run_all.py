@@ -11,6 +11,7 @@ RUNS = [
     ["bench_solver.py", "--quick"],
     ["bench_nearfield.py"],
     ["bench_import.py"],
+    ["bench_penetrable.py", "--items", "1,2", "--max-ka", "50"],
 ]
 
 if __name__ == "__main__":
