@@ -266,10 +266,12 @@ def _maue(mesh: PanelMesh, k: complex, s_mat: ComplexArray, dt_mat: ComplexArray
         mesh.nodes, mesh.normals, joints, np.zeros_like(joints), k,
         want_s=False, want_d=False, want_dp=False, want_dt=True,
     )  # (n, npan): dG/dt_x at the start joint of every panel
-    t_mat = np.empty_like(dt_mat)
+    # T overwrites Dt block by block (each block of T needs only the same block
+    # of Dt), so no second N x N array is allocated.
+    t_mat = dt_mat
     for a in range(npan):
         blk = slice(a * p, (a + 1) * p)
-        np.matmul(dt_mat[:, blk], ds[a], out=t_mat[:, blk])
+        t_mat[:, blk] = dt_mat[:, blk] @ ds[a]
     for a in range(npan):
         t_mat[:, a * p : (a + 1) * p] += g[:, a : a + 1] * at_start[None, :]
         b = int(prev[a])

@@ -158,7 +158,7 @@ class _Scene:
 
 def _fits(scene: _Scene, solver: LinearSolver) -> Callable[[PanelMesh], bool]:
     def fits(mesh: PanelMesh) -> bool:
-        return fits_in_memory(solver.memory_bytes(scene.system(mesh).n_unknowns))
+        return fits_in_memory(solver.memory_bytes(scene.system(mesh)))
 
     return fits
 

@@ -3,7 +3,7 @@
 Glossary
 --------
 linear solver
-    Anything with ``name``, ``memory_bytes(n_unknowns)`` and
+    Anything with ``name``, ``memory_bytes(system)`` and
     ``prepare(system) -> PreparedSolver`` (see ``LinearSolver``). A prepared
     solver solves for many right-hand sides and reports its condition
     estimate. Dense LU (``DenseLU``) is the first implementation: one
@@ -37,6 +37,7 @@ from .system import BoundarySystem
 __all__ = [
     "CONDITION_WARN",
     "MATRICES_IN_FLIGHT",
+    "PLAN_MARGIN",
     "BoundarySolution",
     "DenseLU",
     "Factorisation",
@@ -54,9 +55,12 @@ __all__ = [
 
 ComplexArray = NDArray[np.complex128]
 
-#: Dense complex N x N matrices alive at the peak of one solve: S, D, D', T,
-#: the system matrix and LAPACK's copy, plus temporaries.
-MATRICES_IN_FLIGHT = 7
+#: Default count of dense complex N x N matrices planned for when the system is
+#: not known (``check_memory``); a ``BoundarySystem`` states its own count.
+MATRICES_IN_FLIGHT = 4
+#: Allowance for what the plan does not count (per-panel work arrays, the
+#: mesh, right-hand sides): 5 % of the planned matrices.
+PLAN_MARGIN = 1.05
 #: Fraction of the available memory a solve may plan to use.
 MEMORY_FRACTION = 0.8
 #: Condition numbers above this are flagged (digits lost ~ log10(cond)).
@@ -101,7 +105,7 @@ def fits_in_memory(n_bytes: int) -> bool:
     return n_bytes <= MEMORY_FRACTION * available_memory_bytes()
 
 
-def check_memory(n_unknowns: int, *, matrices: int = MATRICES_IN_FLIGHT) -> int:
+def check_memory(n_unknowns: int, *, matrices: float = MATRICES_IN_FLIGHT) -> int:
     """Estimate the bytes a dense solve of ``n_unknowns`` needs; refuse if too many.
 
     Raises
@@ -109,12 +113,12 @@ def check_memory(n_unknowns: int, *, matrices: int = MATRICES_IN_FLIGHT) -> int:
     ProblemTooLargeError
         If ``matrices * 16 N^2`` bytes exceed the usable memory.
     """
-    need = int(matrices) * 16 * int(n_unknowns) ** 2
+    need = int(matrices * 16 * int(n_unknowns) ** 2)
     avail = available_memory_bytes()
     if need > MEMORY_FRACTION * avail:
         raise ProblemTooLargeError(
             f"the dense solve needs about {need / 2**30:.1f} GiB for {n_unknowns} unknowns "
-            f"({matrices} complex matrices of 16 N^2 bytes) but {avail / 2**30:.1f} GiB are "
+            f"({matrices:g} complex matrices of 16 N^2 bytes) but {avail / 2**30:.1f} GiB are "
             "available; lower the frequency, loosen the tolerance, or split the scene"
         )
     return need
@@ -122,25 +126,44 @@ def check_memory(n_unknowns: int, *, matrices: int = MATRICES_IN_FLIGHT) -> int:
 
 @dataclass
 class Factorisation:
-    """LU factors of a system matrix and its estimated condition number."""
+    """LU factors of a system matrix (or of its transpose) and its estimated condition number."""
 
     lu: ComplexArray
     piv: NDArray[np.int32]
     condition: float
+    transposed: bool = False
 
     def solve(self, rhs: ComplexArray) -> ComplexArray:
         """Solve for one or many right-hand sides (columns)."""
-        return la.lu_solve((self.lu, self.piv), rhs, check_finite=False)
+        return la.lu_solve((self.lu, self.piv), rhs, trans=1 if self.transposed else 0, check_finite=False)
+
+
+def _abs_sums(matrix: ComplexArray, axis: int, chunk: int = 512) -> float:
+    """Largest sum of absolute values along ``axis``, in slabs (no N x N temporary)."""
+    n = matrix.shape[1 - axis]
+    best = 0.0
+    for lo in range(0, n, chunk):
+        part = matrix[:, lo : lo + chunk] if axis == 0 else matrix[lo : lo + chunk]
+        best = max(best, float(np.max(np.sum(np.abs(part), axis=axis))))
+    return best
 
 
 def factorise(matrix: ComplexArray, *, overwrite: bool = True) -> Factorisation:
-    """LU-factorise ``matrix`` (LAPACK getrf) and estimate its 1-norm condition (gecon)."""
-    anorm = float(np.max(np.sum(np.abs(matrix), axis=0)))
-    lu, piv = la.lu_factor(matrix, overwrite_a=overwrite, check_finite=False)
+    """LU-factorise ``matrix`` (LAPACK getrf) and estimate its condition (gecon).
+
+    A C-ordered matrix is factorised as its transpose, which LAPACK sees in
+    Fortran order, so with ``overwrite`` no copy is made; ``solve`` then
+    solves with the transposed factors. The estimate is the 1-norm condition
+    of whichever matrix was factorised.
+    """
+    transposed = matrix.flags.c_contiguous and not matrix.flags.f_contiguous
+    target = matrix.T if transposed else matrix
+    anorm = _abs_sums(target, axis=0)
+    lu, piv = la.lu_factor(target, overwrite_a=overwrite, check_finite=False)
     gecon = la.get_lapack_funcs("gecon", (lu,))
     rcond, info = gecon(lu, anorm, norm="1")
     condition = float(1.0 / rcond) if rcond > 0 else float("inf")
-    return Factorisation(lu, piv, condition)
+    return Factorisation(lu, piv, condition, transposed)
 
 
 class PreparedSolver(Protocol):
@@ -167,8 +190,8 @@ class LinearSolver(Protocol):
         """Name used in reports."""
         ...
 
-    def memory_bytes(self, n_unknowns: int) -> int:
-        """Bytes a solve of ``n_unknowns`` needs at its peak (no allocation)."""
+    def memory_bytes(self, system: BoundarySystem) -> int:
+        """Bytes a solve of ``system`` needs at its peak (nothing is allocated)."""
         ...
 
     def prepare(self, system: BoundarySystem) -> PreparedSolver:
@@ -195,12 +218,12 @@ class DenseLU:
 
     name: str = "dense LU"
 
-    def memory_bytes(self, n_unknowns: int) -> int:
-        return MATRICES_IN_FLIGHT * 16 * int(n_unknowns) ** 2
+    def memory_bytes(self, system: BoundarySystem) -> int:
+        return int(PLAN_MARGIN * system.dense_peak_matrices() * 16 * system.n_unknowns**2)
 
     def prepare(self, system: BoundarySystem) -> PreparedSolver:
         t0 = time.perf_counter()
-        check_memory(system.n_unknowns)
+        check_memory(system.n_unknowns, matrices=PLAN_MARGIN * system.dense_peak_matrices())
         matrix = system.dense_matrix()
         t1 = time.perf_counter()
         factors = factorise(matrix)
@@ -263,7 +286,7 @@ def solve_boundary(
         If the solver's memory plan does not fit.
     """
     active: LinearSolver = solver if solver is not None else DenseLU()
-    planned = active.memory_bytes(system.n_unknowns)
+    planned = active.memory_bytes(system)
     prepared = active.prepare(system)
     t1 = time.perf_counter()
     mesh = system.mesh

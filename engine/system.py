@@ -130,6 +130,28 @@ class BoundarySystem:
         p_dudn = np.concatenate([m.dudn[:, 0] for m in maps])
         return c1, c2, p_u, p_dudn
 
+    def dense_peak_matrices(self) -> float:
+        """Complex ``N x N`` arrays (N = ``n_unknowns``) alive at the peak of a dense solve.
+
+        The compiled path holds the operators it needs (S, and D, D', T as
+        the formulations ask; T is built in place of the tangential-derivative
+        matrix) and builds the system in place of S; the general path holds
+        the system, one region's operators and the temporaries of one block.
+        LU factorises in place. Small per-panel arrays are not counted.
+        """
+        if self.is_simple:
+            _, _, p_u, p_dudn = self._simple_vectors()
+            return float(sum(self._needs(p_u, p_dudn).values()))
+        n = max(self.n_unknowns, 1)
+        worst = 0.0
+        for region in self.regions:
+            slots = self._stacked(region)
+            m = sum(self._nodes_of[c].size for c, _ in region.contours)
+            need = self._needs(np.concatenate([s.u for s in slots]), np.concatenate([s.dudn for s in slots]))
+            block = max(s.local.size for s in slots)
+            worst = max(worst, (sum(need.values()) * m * m + 4 * block * block) / (n * n))
+        return 1.0 + worst
+
     # ------------------------------------------------------------------ assembly
 
     def dense_matrix(self) -> ComplexArray:

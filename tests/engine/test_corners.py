@@ -66,7 +66,8 @@ def test_memory_limit_refines_corners_less_and_says_so(monkeypatch):
     import sectionwave.engine.solve as solve_mod
     from sectionwave.engine import AccuracyWarning
 
-    room = 0.8 * 7 * 16 * 1500**2
+    # TM (Dirichlet) plans two complex N x N matrices (S and D'; system and LU in place)
+    room = 0.8 * solve_mod.PLAN_MARGIN * 2 * 16 * 1500**2
     monkeypatch.setattr(solve_mod, "available_memory_bytes", lambda: int(room / 0.8))
     import warnings
 

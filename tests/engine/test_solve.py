@@ -25,6 +25,7 @@ from sectionwave.engine.problem import IncidentWave
 from sectionwave.engine.solve import (
     MATRICES_IN_FLIGHT,
     MEMORY_FRACTION,
+    PLAN_MARGIN,
     BoundarySolution,
     DenseLU,
     IllConditionedWarning,
@@ -68,12 +69,16 @@ WAVES = [
 # ----------------------------------------------------------------- memory plan
 
 
-def test_dense_lu_memory_bytes():
+def test_dense_lu_memory_bytes(circle_system):
     lu = DenseLU()
     assert lu.name == "dense LU"
-    # seven complex N x N matrices of 16 bytes per entry
-    assert lu.memory_bytes(1000) == 7 * 16 * 1000**2 == MATRICES_IN_FLIGHT * 16 * 10**6
-    assert lu.memory_bytes(0) == 0
+    # Dirichlet: S and D' are assembled, the system is built in place of S and
+    # factorised in place, so two complex N x N matrices (16 bytes per entry)
+    n = circle_system.n_unknowns
+    assert circle_system.dense_peak_matrices() == 2.0
+    assert lu.memory_bytes(circle_system) == int(PLAN_MARGIN * 2 * 16 * n**2)
+    neumann = BoundarySystem(circle_system.mesh, [Neumann()], KA)
+    assert neumann.dense_peak_matrices() == 3.0  # S, D and T (in place of the tangential derivative)
 
 
 def test_check_memory_refuses_with_the_estimate(monkeypatch):
@@ -81,9 +86,9 @@ def test_check_memory_refuses_with_the_estimate(monkeypatch):
     with pytest.raises(ProblemTooLargeError) as info:
         check_memory(10_000)
     msg = str(info.value)
-    # 7 * 16 * 1e8 bytes = 10.4 GiB
-    assert "needs about 10.4 GiB for 10000 unknowns" in msg
-    assert "(7 complex matrices of 16 N^2 bytes)" in msg
+    # 4 * 16 * 1e8 bytes = 6.0 GiB
+    assert "needs about 6.0 GiB for 10000 unknowns" in msg
+    assert "(4 complex matrices of 16 N^2 bytes)" in msg
     assert "but 1.0 GiB are available" in msg
     assert "lower the frequency, loosen the tolerance, or split the scene" in msg
     assert isinstance(info.value, MemoryError) and isinstance(info.value, SectionwaveError)
@@ -91,10 +96,10 @@ def test_check_memory_refuses_with_the_estimate(monkeypatch):
 
 def test_check_memory_returns_the_plan(monkeypatch):
     set_memory(monkeypatch, 1 * GIB)
-    assert check_memory(100) == 7 * 16 * 100**2
+    assert check_memory(100) == MATRICES_IN_FLIGHT * 16 * 100**2
     assert check_memory(100, matrices=2) == 2 * 16 * 100**2
     # the limit is MEMORY_FRACTION of what is available
-    n_ok = int(math.sqrt(MEMORY_FRACTION * GIB / (7 * 16)))
+    n_ok = int(math.sqrt(MEMORY_FRACTION * GIB / (MATRICES_IN_FLIGHT * 16)))
     check_memory(n_ok)
     with pytest.raises(ProblemTooLargeError):
         check_memory(n_ok + 1)
@@ -161,7 +166,7 @@ def test_solve_boundary_solution_and_report(circle_system):
     assert sol.system is circle_system
     assert sol.unknowns.shape == sol.u.shape == sol.dudn.shape == (n, 3)
     r = sol.report
-    assert (r.method, r.unknowns, r.memory_planned_bytes) == ("dense LU", n, DenseLU().memory_bytes(n))
+    assert (r.method, r.unknowns, r.memory_planned_bytes) == ("dense LU", n, DenseLU().memory_bytes(circle_system))
     assert r.condition_estimate is not None and math.isfinite(r.condition_estimate)
     # a second-kind combined-field equation on a smooth body is well conditioned
     assert 1.0 <= r.condition_estimate < 1e3
@@ -240,8 +245,8 @@ class DenseGmres:
     name: str = "GMRES (dense products)"
     prepared: list[_GmresPrepared] = field(default_factory=list)
 
-    def memory_bytes(self, n_unknowns: int) -> int:
-        return 2 * 16 * int(n_unknowns) ** 2
+    def memory_bytes(self, system: BoundarySystem) -> int:
+        return 2 * 16 * system.n_unknowns**2
 
     def prepare(self, system: BoundarySystem) -> _GmresPrepared:
         t0 = time.perf_counter()
@@ -250,9 +255,9 @@ class DenseGmres:
         return p
 
 
-def test_gmres_is_a_linear_solver():
+def test_gmres_is_a_linear_solver(circle_system):
     solver: LinearSolver = DenseGmres()
-    assert solver.memory_bytes(10) == 3200
+    assert solver.memory_bytes(circle_system) == 32 * circle_system.n_unknowns**2
 
 
 def test_second_solver_in_solve_boundary(circle_system):
@@ -317,8 +322,8 @@ class PoorlyConditioned:
 
     name: str = "dense LU (reporting 1e12)"
 
-    def memory_bytes(self, n_unknowns: int) -> int:
-        return DenseLU().memory_bytes(n_unknowns)
+    def memory_bytes(self, system: BoundarySystem) -> int:
+        return DenseLU().memory_bytes(system)
 
     def prepare(self, system: BoundarySystem):
         return _Reporting(DenseLU().prepare(system), 1e12)
