@@ -3,6 +3,10 @@
 from __future__ import annotations
 
 import math
+import os
+import subprocess
+import sys
+import textwrap
 
 import mpmath as mp
 import numpy as np
@@ -148,3 +152,29 @@ def test_combined_and_array_forms_agree_with_the_scalar_ones():
     assert np.array_equal(a, [bessel.j0(v) for v in big])
     assert np.array_equal(b, [bessel.j1(v) for v in big])
 
+
+def test_a_new_process_loads_the_compiled_loops_from_the_cache():
+    # Nothing compiled for real wavenumbers holds a process-specific address,
+    # so a second process finds every loop in numba's disk cache.
+    code = textwrap.dedent("""
+        import numpy as np
+        from sectionwave.engine import parse_case, solve_scene
+        from sectionwave.engine import _kernel_loops, _nearfield_loops, bessel, operators
+        scene = parse_case({
+            "wave": {"field": "te", "frequency_hz": 3e8},
+            "body": [{"name": "c", "shape": {"kind": "circle", "radius_m": 0.2}, "boundary": "pec"}],
+            "incident": [{"kind": "plane", "from_deg": [0]}],
+            "solver": {"tolerance": 1e-6},
+            "near_field": {"x_m": [-0.25, 0.25], "y_m": [-0.25, 0.25], "count": [41, 41]},
+        })
+        solve_scene(scene)
+        loops = [_kernel_loops.matrices, _nearfield_loops.far_sum, _nearfield_loops.panel_kernels,
+                 bessel._j0j1_loop, operators._normal_term()]
+        print(sum(len(d.stats.cache_misses) for d in loops), min(len(d.stats.cache_hits) for d in loops))
+    """)
+    env = dict(os.environ)
+    for _ in range(2):  # the first run may compile and fill the cache
+        proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=300)
+        assert proc.returncode == 0, proc.stderr
+    misses, hits = map(int, proc.stdout.split())
+    assert misses == 0 and hits >= 1  # every loop was loaded, none compiled
