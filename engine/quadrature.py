@@ -122,11 +122,14 @@ def _log_moments_one_side(s: float, p: int) -> FloatArray:
         return np.zeros(p)
     xg, wg = gauss_legendre(24)
     edges = length * np.concatenate([[0.0], 2.0 ** -np.arange(60, -1, -1.0)])
+    a = edges[:-1, None]
+    b = edges[1:, None]
+    u = a + (b - a) * 0.5 * (xg + 1.0)  # (levels, nodes), all levels in one evaluation
+    vals = legendre.legvander(s + u, p - 1) * np.log(u)[:, :, None]
+    parts = 0.5 * (b - a) * np.einsum("j,ljk->lk", wg, vals)
     total = np.zeros(p)
-    for a, b in zip(edges[:-1], edges[1:]):
-        u = a + (b - a) * 0.5 * (xg + 1.0)
-        vals = legendre.legvander(s + u, p - 1) * np.log(u)[:, None]
-        total += 0.5 * (b - a) * (wg @ vals)
+    for part in parts:  # smallest level first, as the levels shrink toward s
+        total += part
     return total
 
 
