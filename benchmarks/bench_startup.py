@@ -13,9 +13,11 @@ is a cold-cache run; it also fills the cache, then each command is timed
 ``--repeats`` times and the best time is kept. The goal is a ratio
 ``run / --version`` of at most 3 for the case without plots.
 
-Run: ``python benchmarks/bench_startup.py [--repeats 3] [--keep-cache]``
+Run: ``python benchmarks/bench_startup.py [--repeats 3] [--keep-cache] [--blas-threads N]``
 (``--keep-cache`` uses numba's usual cache folder instead of a fresh one,
-so the "cold" figure is only cold the first time).
+so the "cold" figure is only cold the first time; ``--blas-threads 1``
+sets ``OPENBLAS_NUM_THREADS`` and ``MKL_NUM_THREADS`` for the runs, to show
+what the BLAS worker threads cost a problem this small).
 """
 
 from __future__ import annotations
@@ -68,6 +70,7 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeats", type=int, default=3, help="timed runs per command (best kept)")
     ap.add_argument("--keep-cache", action="store_true", help="use numba's usual cache folder")
+    ap.add_argument("--blas-threads", type=int, default=None, help="OPENBLAS_NUM_THREADS for the runs")
     args = ap.parse_args()
     exe = _script()
     with tempfile.TemporaryDirectory() as tmp_s:
@@ -75,6 +78,8 @@ def main() -> None:
         env = dict(os.environ)
         if not args.keep_cache:
             env["NUMBA_CACHE_DIR"] = str(tmp / "numba-cache")
+        if args.blas_threads is not None:
+            env["OPENBLAS_NUM_THREADS"] = env["MKL_NUM_THREADS"] = str(args.blas_threads)
         cases = {
             "no plots/vtk": tmp / "tiny.toml",
             "default outputs": tmp / "tiny_default.toml",
@@ -86,7 +91,8 @@ def main() -> None:
         runs = {name: [exe, "run", str(path), "--out", out, "--force", "--quiet"] for name, path in cases.items()}
 
         cold = _time(runs["no plots/vtk"], env)  # fills the cache
-        print(f"python {sys.version.split()[0]}, {exe}")
+        blas = "default" if args.blas_threads is None else str(args.blas_threads)
+        print(f"python {sys.version.split()[0]}, {exe}, BLAS threads {blas}")
         print(f"first run (cold numba cache), no plots/vtk: {cold:6.2f} s")
         _time(version, env)
         best_v = min(_time(version, env) for _ in range(args.repeats))
