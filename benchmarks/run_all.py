@@ -11,6 +11,7 @@ RUNS = [
     ["bench_solver.py", "--quick"],
     ["bench_nearfield.py"],
     ["bench_import.py"],
+    ["bench_startup.py"],
 ]
 
 if __name__ == "__main__":
