@@ -28,7 +28,6 @@ from functools import lru_cache
 from typing import Any
 
 import numpy as np
-import scipy.special as sp
 from numpy.polynomial import chebyshev
 from numpy.typing import NDArray
 
@@ -61,6 +60,8 @@ def _amplitude(nu: int, x: NDArray[Any]) -> ComplexArray:
     where 30 terms are far below rounding; smaller ones divide scipy's
     Hankel function by the phase.
     """
+    import scipy.special as sp
+
     x = np.asarray(x, dtype=float)
     out = np.empty(x.shape, dtype=complex)
     big = x > 300.0
@@ -180,6 +181,8 @@ def bessel_j0j1(z: NDArray[Any]) -> tuple[NDArray[Any], NDArray[Any]]:
     """``J0(z)`` and ``J1(z)`` for real or complex arrays."""
     z = np.asarray(z)
     if np.iscomplexobj(z):
+        import scipy.special as sp
+
         return sp.jv(0, z), sp.jv(1, z)
     from .bessel import j0j1_array
 
@@ -198,6 +201,8 @@ def green(k: complex, r: NDArray[Any]) -> ComplexArray:
     >>> round(float(g.real), 7), round(float(g.imag), 7)
     (-0.0220642, -0.1912994)
     """
+    import scipy.special as sp
+
     return -0.25j * sp.hankel2(0, k * np.asarray(r))
 
 
@@ -232,6 +237,8 @@ def kernel_matrices(
         return fn(
             tx, ty, tnx, tny, sx, sy, snx, sny, w, float(np.real(k)), want_s, want_d, want_dp, want_dt
         )
+    import scipy.special as sp  # complex k only; real k never needs scipy.special here
+
     dx = tx[:, None] - sx[None, :]
     dy = ty[:, None] - sy[None, :]
     r = np.hypot(dx, dy)
