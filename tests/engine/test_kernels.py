@@ -97,3 +97,17 @@ def test_checked_in_hankel_amplitude_polynomials_match_the_fit():
         fit_re = np.array([getattr(amp, f"eval_m{nu}r")(v) for v in s[1:]])
         fit_im = np.array([getattr(amp, f"eval_m{nu}i")(v) for v in s[1:]])
         assert np.max(np.abs(fit_re + 1j * fit_im - m)) < 3e-14
+
+
+def test_legendre_q_matches_mpmath_and_scipy():
+    # Q_k on (-1, 1) against 30-digit mpmath (legenq, type 2) and scipy.special.lqn.
+    from scipy.special import lqn
+    from sectionwave.engine.quadrature import _legendre_q
+
+    mp.mp.dps = 30
+    x, _ = gauss_legendre(16)
+    for s in x[::3]:
+        ours = _legendre_q(15, float(s))
+        ref = [float(mp.legenq(k, 0, mp.mpf(float(s)), type=2)) for k in range(16)]
+        assert np.max(np.abs(ours - ref)) < 2e-15
+        assert np.allclose(ours, lqn(15, float(s))[0], rtol=0, atol=1e-15)
