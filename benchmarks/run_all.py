@@ -12,6 +12,7 @@ RUNS = [
     ["bench_nearfield.py"],
     ["bench_import.py"],
     ["bench_penetrable.py", "--items", "1,2", "--max-ka", "50"],
+    ["bench_startup.py"],
 ]
 
 if __name__ == "__main__":

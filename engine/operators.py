@@ -289,7 +289,7 @@ def add_normal_term(t_mat: ComplexArray, s_mat: ComplexArray, normals: NDArray[n
 def _normal_term():
     import numba
 
-    @numba.njit(parallel=True)
+    @numba.njit(parallel=True, cache=True)
     def run(t_mat, s_mat, nx, ny, k2):
         n = nx.size
         for i in numba.prange(n):

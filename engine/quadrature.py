@@ -122,11 +122,14 @@ def _log_moments_one_side(s: float, p: int) -> FloatArray:
         return np.zeros(p)
     xg, wg = gauss_legendre(24)
     edges = length * np.concatenate([[0.0], 2.0 ** -np.arange(60, -1, -1.0)])
+    a = edges[:-1, None]
+    b = edges[1:, None]
+    u = a + (b - a) * 0.5 * (xg + 1.0)  # (levels, nodes), all levels in one evaluation
+    vals = legendre.legvander(s + u, p - 1) * np.log(u)[:, :, None]
+    parts = 0.5 * (b - a) * np.einsum("j,ljk->lk", wg, vals)
     total = np.zeros(p)
-    for a, b in zip(edges[:-1], edges[1:]):
-        u = a + (b - a) * 0.5 * (xg + 1.0)
-        vals = legendre.legvander(s + u, p - 1) * np.log(u)[:, None]
-        total += 0.5 * (b - a) * (wg @ vals)
+    for part in parts:  # smallest level first, as the levels shrink toward s
+        total += part
     return total
 
 
@@ -202,6 +205,30 @@ def _arg_change(tn: ComplexArray, zn: ComplexArray) -> FloatArray:
     return steps.sum(axis=0)
 
 
+def _legendre_q(n: int, x: float) -> FloatArray:
+    """Legendre functions of the second kind ``Q_0(x) .. Q_n(x)`` for ``-1 < x < 1``.
+
+    ``Q_0 = log((1 + x) / (1 - x)) / 2``, ``Q_1 = x Q_0 - 1`` and Bonnet's
+    recurrence ``(k + 1) Q_{k+1} = (2k + 1) x Q_k - k Q_{k-1}`` (DLMF 14.5.22,
+    14.10.3; from memory), run forward: inside (-1, 1) neither P_k nor Q_k
+    dominates, so the forward recurrence is stable (the same values as
+    ``scipy.special.lqn``, without importing scipy.special).
+
+    Examples
+    --------
+    >>> q = _legendre_q(2, 0.5)
+    >>> bool(abs(q[2] - (0.25 * 3 * 0.5 ** 2 * np.log(3.0) - 0.25 * np.log(3.0) - 0.75)) < 1e-15)
+    True
+    """
+    out = np.empty(n + 1)
+    out[0] = 0.5 * np.log((1.0 + x) / (1.0 - x))
+    if n >= 1:
+        out[1] = x * out[0] - 1.0
+    for k in range(1, n):
+        out[k + 1] = ((2 * k + 1) * x * out[k] - k * out[k - 1]) / (k + 1)
+    return out
+
+
 @lru_cache(maxsize=8)
 def self_cauchy_weights(p: int) -> FloatArray:
     """Principal-value weights for ``1 / (t - t_i)`` with the target at node ``i``.
@@ -218,10 +245,8 @@ def self_cauchy_weights(p: int) -> FloatArray:
     >>> bool(abs(W[2].sum() - np.log((1 - x[2]) / (1 + x[2]))) < 1e-13)
     True
     """
-    from scipy.special import lqn
-
     x, _ = gauss_legendre(p)
-    moments = np.array([-2.0 * lqn(p - 1, float(s))[0] for s in x])  # (p targets, p degrees)
+    moments = np.array([-2.0 * _legendre_q(p - 1, float(s)) for s in x])  # (p targets, p degrees)
     vander = legendre.legvander(x, p - 1)
     weights = np.linalg.solve(vander.T, moments.T).T
     weights.setflags(write=False)

@@ -315,7 +315,7 @@ def _combine_in_place(
 def _combine():
     import numba
 
-    @numba.njit(parallel=True)
+    @numba.njit(parallel=True, cache=True)
     def run(out, s_mat, d_mat, dp_mat, t_mat, c1, c2, p_u, p_psi):
         n = out.shape[0]
         has_s, has_d, has_dp, has_t = s_mat.size > 0, d_mat.size > 0, dp_mat.size > 0, t_mat.size > 0

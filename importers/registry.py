@@ -16,12 +16,14 @@ import importlib
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
-from importlib import metadata
 from pathlib import Path
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 from .drawing import Drawing
 from .errors import DrawingError, SectionwaveWarning
+
+if TYPE_CHECKING:
+    from importlib import metadata
 
 __all__ = [
     "ENTRY_POINT_GROUP",
@@ -140,6 +142,8 @@ _BUILTINS: tuple[ImporterInfo, ...] = (
 
 
 def _plugin_entry_points() -> list[metadata.EntryPoint]:
+    from importlib import metadata  # imported here: it costs tens of ms and a solve never needs it
+
     try:
         return list(metadata.entry_points(group=ENTRY_POINT_GROUP))
     except Exception as exc:  # noqa: BLE001 - broken metadata must not stop the built-ins

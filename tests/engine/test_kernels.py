@@ -75,3 +75,39 @@ def test_self_panel_single_layer_matches_mpmath(node):
     th_i = th_nodes[node]
     ref = mp.quad(integrand, [a, th_i, b])
     assert abs(ours - complex(ref)) < 1e-12 * abs(complex(ref))
+
+
+def test_checked_in_hankel_amplitude_polynomials_match_the_fit():
+    # engine/_hankel_amplitude.py holds the Chebyshev fit of M_nu with literal
+    # monomial coefficients (so the loops that inline it can be cached); it
+    # must reproduce the fit, and the fit must reproduce scipy's Hankel
+    # functions (DLMF 10.4.4 / 10.17.4) to the stated 3e-14.
+    from numpy.polynomial import chebyshev
+    from sectionwave.engine import _hankel_amplitude as amp
+    from sectionwave.engine import kernels
+
+    s = np.linspace(-1.0, 1.0, 401)
+    coef = kernels._amplitude_coefficients()
+    for row, name in zip(coef, ("m0r", "m0i", "m1r", "m1i")):
+        ours = np.array([getattr(amp, f"eval_{name}")(v) for v in s])
+        assert np.max(np.abs(ours - chebyshev.chebval(s, row))) < 1e-15
+    x = kernels.HANKEL_SPLIT / (0.5 * (s[1:] + 1.0))
+    for nu in (0, 1):
+        m = kernels._amplitude(nu, x)
+        fit_re = np.array([getattr(amp, f"eval_m{nu}r")(v) for v in s[1:]])
+        fit_im = np.array([getattr(amp, f"eval_m{nu}i")(v) for v in s[1:]])
+        assert np.max(np.abs(fit_re + 1j * fit_im - m)) < 3e-14
+
+
+def test_legendre_q_matches_mpmath_and_scipy():
+    # Q_k on (-1, 1) against 30-digit mpmath (legenq, type 2) and scipy.special.lqn.
+    from scipy.special import lqn
+    from sectionwave.engine.quadrature import _legendre_q
+
+    mp.mp.dps = 30
+    x, _ = gauss_legendre(16)
+    for s in x[::3]:
+        ours = _legendre_q(15, float(s))
+        ref = [float(mp.legenq(k, 0, mp.mpf(float(s)), type=2)) for k in range(16)]
+        assert np.max(np.abs(ours - ref)) < 2e-15
+        assert np.allclose(ours, lqn(15, float(s))[0], rtol=0, atol=1e-15)
