@@ -34,7 +34,7 @@ _m1i = numba.njit(inline="always", fastmath=True, error_model="numpy")(_amp.eval
 
 
 @numba.njit(inline="always")
-def _bessels(kr):  # type: ignore[no-untyped-def]
+def _bessels(kr):
     # J0, Y0, J1, Y1 at kr > 0: Cephes (engine.bessel) below HANKEL_SPLIT,
     # the Hankel amplitude fit with one sine and cosine above it.
     if kr < _SPLIT:
@@ -54,7 +54,7 @@ def _bessels(kr):  # type: ignore[no-untyped-def]
 
 
 @numba.njit(parallel=True, fastmath=False, cache=True)
-def matrices(tx, ty, tnx, tny, sx, sy, snx, sny, w, k, want_s, want_d, want_dp, want_dt):  # type: ignore[no-untyped-def]
+def matrices(tx, ty, tnx, tny, sx, sy, snx, sny, w, k, want_s, want_d, want_dp, want_dt):
     """Weighted S, D, D', Dt kernel values at targets by sources (zero where they coincide)."""
     m, n = tx.size, sx.size
     s_mat = np.empty((m if want_s else 0, n), dtype=np.complex128)

@@ -37,12 +37,12 @@ _m1i = numba.njit(inline="always", fastmath=_FLAGS, error_model="numpy")(_amp.ev
 
 
 @numba.njit(inline="always", fastmath=_FLAGS, error_model="numpy")
-def _amplitudes(s):  # type: ignore[no-untyped-def]
+def _amplitudes(s):
     return _m0r(s), _m0i(s), _m1r(s), _m1i(s)
 
 
 @numba.njit(parallel=True, fastmath=_FLAGS, error_model="numpy", cache=True)
-def far_sum(tx, ty, sx, sy, snx, sny, a_re, a_im, b_re, b_im, k, chunk):  # type: ignore[no-untyped-def]
+def far_sum(tx, ty, sx, sy, snx, sny, a_re, a_im, b_re, b_im, k, chunk):
     """Far sums ``S0, S1`` (pairs with ``k r >= HANKEL_SPLIT``) and the direct sum of the closer pairs."""
     # Returns S1 = sum E1 a and S0 = sum E0 b for pairs with k r >= split
     # (E_nu = exp(-j x) M_nu / sqrt(x), E1 also times r_hat . n_y) and
@@ -134,7 +134,7 @@ def far_sum(tx, ty, sx, sy, snx, sny, a_re, a_im, b_re, b_im, k, chunk):  # type
     return s0, s1, direct
 
 @numba.njit(parallel=False, cache=True)
-def panel_kernels(tx, ty, sx, sy, snx, sny, k):  # type: ignore[no-untyped-def]
+def panel_kernels(tx, ty, sx, sy, snx, sny, k):
     """Plain S and D kernel values of one panel at the targets."""
     # Plain S and D kernel values (zero where the points coincide), serial:
     # the blocks are small and a parallel region costs more than it saves.

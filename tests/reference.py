@@ -111,34 +111,7 @@ def layered_circle_coefficients(
     c = np.empty(n.size, dtype=complex)
     coefs = [np.zeros((n.size, 2), dtype=complex) for _ in range(n_layers)]
     for row, m in enumerate(n):
-
-        def basis(layer: int, which: int, r: float, deriv: bool) -> complex:
-            k, beta = media[layer]
-            if which == 0:
-                v = k * sp.jvp(m, k * r) * beta if deriv else sp.jv(m, k * r)
-            else:
-                v = k * sp.h2vp(m, k * r) * beta if deriv else sp.hankel2(m, k * r)
-            return complex(v)
-
-        mat = np.zeros((len(cols), len(cols)), dtype=complex)
-        rhs = np.zeros(len(cols), dtype=complex)
-        eq = 0
-        if core != "medium":
-            for j, (lay, w) in enumerate(cols):
-                if lay == 0:
-                    mat[eq, j] = basis(0, w, core_radius, core == "neumann")
-            eq += 1
-        for i in range(n_layers):
-            r = radii[i]
-            for deriv in (False, True):
-                for j, (lay, w) in enumerate(cols):
-                    if lay == i:
-                        mat[eq, j] -= basis(lay, w, r, deriv)
-                    elif lay == i + 1:
-                        mat[eq, j] += basis(lay, w, r, deriv)
-                if i + 1 == n_layers:  # the incident wave's part of the exterior field
-                    rhs[eq] -= basis(n_layers, 0, r, deriv)
-                eq += 1
+        mat, rhs = _matching_system(int(m), media, radii, cols, core, core_radius)
         sol = np.linalg.solve(mat, rhs)
         for j, (lay, w) in enumerate(cols):
             if lay == n_layers:
@@ -146,6 +119,45 @@ def layered_circle_coefficients(
             else:
                 coefs[lay][row, w] = sol[j]
     return n, c, coefs
+
+
+def _layer_basis(m: int, media, layer: int, which: int, r: float, deriv: bool) -> complex:
+    """J_n (which = 0) or H_n^(2) (which = 1) of a layer at radius r, or beta times its r-derivative."""
+    k, beta = media[layer]
+    if which == 0:
+        v = k * sp.jvp(m, k * r) * beta if deriv else sp.jv(m, k * r)
+    else:
+        v = k * sp.h2vp(m, k * r) * beta if deriv else sp.hankel2(m, k * r)
+    return complex(v)
+
+
+def _matching_system(m: int, media, radii, cols, core: str, core_radius):
+    """Interface conditions of order m: rows (u, beta du/dr) per interface, plus the core's condition."""
+    n_layers = len(radii)
+
+    def basis(layer: int, which: int, r: float, deriv: bool) -> complex:
+        return _layer_basis(m, media, layer, which, r, deriv)
+
+    mat = np.zeros((len(cols), len(cols)), dtype=complex)
+    rhs = np.zeros(len(cols), dtype=complex)
+    eq = 0
+    if core != "medium":
+        for j, (lay, w) in enumerate(cols):
+            if lay == 0:
+                mat[eq, j] = basis(0, w, core_radius, core == "neumann")
+        eq += 1
+    for i in range(n_layers):
+        r = radii[i]
+        for deriv in (False, True):
+            for j, (lay, w) in enumerate(cols):
+                if lay == i:
+                    mat[eq, j] -= basis(lay, w, r, deriv)
+                elif lay == i + 1:
+                    mat[eq, j] += basis(lay, w, r, deriv)
+            if i + 1 == n_layers:  # the incident wave's part of the exterior field
+                rhs[eq] -= basis(n_layers, 0, r, deriv)
+            eq += 1
+    return mat, rhs
 
 
 def coefficients_far_field(n: np.ndarray, c: np.ndarray, k: float, angles_deg, from_deg: float) -> np.ndarray:
