@@ -244,29 +244,31 @@ def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
 
 
 def _drop_wrap_joint(mesh: PanelMesh, k: float, t_mat: ComplexArray) -> None:
-    """Remove the joint term Maue's rule adds between the two open ends of a local zone mesh.
+    """Make Maue's joint terms right for a local zone mesh, an open chain of panels.
 
-    A local mesh is one open chain, but ``PanelMesh.neighbours`` closes it;
-    the point-mass term at the start of its first panel then pairs that
-    panel's start value with the last panel's end value, a joint that does
-    not exist. It is taken out here (the true joints at the zone's ends
-    belong to ``K°`` and stay in the global matrix).
+    ``PanelMesh.neighbours`` closes the chain, so the point-mass term at the
+    start of the first panel pairs that panel's start value with the last
+    panel's end value, a joint that does not exist. Each open end instead
+    keeps the half of its true joint term that involves the zone's own
+    density (the first panel's start value, the last panel's end value):
+    in the recursion those ends are interior joints of the next coarser
+    level, whose inner-inner block the compressed inverse stands for. The
+    other half involves the density outside the zone and belongs to ``K°``.
     """
     from .kernels import kernel_matrices
     from .quadrature import gauss_legendre, interpolation_matrix
 
     p = mesh.p
     x, _ = gauss_legendre(p)
-    at_start = interpolation_matrix(x, np.array([-1.0]))[0]
     at_end = interpolation_matrix(x, np.array([1.0]))[0]
-    joint = mesh.ends[0:1, 0, :]
+    last = mesh.n_panels - 1
+    joints = np.vstack([mesh.ends[0:1, 0, :], mesh.ends[last : last + 1, 1, :]])
     _, _, _, g = kernel_matrices(
-        mesh.nodes, mesh.normals, joint, np.zeros_like(joint), k,
+        mesh.nodes, mesh.normals, joints, np.zeros_like(joints), k,
         want_s=False, want_d=False, want_dp=False, want_dt=True,
     )
-    last = mesh.n_panels - 1
-    t_mat[:, 0:p] -= g[:, 0:1] * at_start[None, :]
-    t_mat[:, last * p : (last + 1) * p] += g[:, 0:1] * at_end[None, :]
+    # undo the wrap (-g_start at_end on the last panel), add the end joint's own half
+    t_mat[:, last * p : (last + 1) * p] += (g[:, 0:1] - g[:, 1:2]) * at_end[None, :]
 
 
 def rcip_solve(
