@@ -38,8 +38,8 @@ import scipy.special as sp
 EULER_GAMMA = 0.57721566490153286060651209
 
 
-def _grading(sig: np.ndarray, q: int) -> tuple[np.ndarray, np.ndarray]:
-    """Kress's substitution ``w`` and its derivative on [0, 2 pi]."""
+def _grading(sig: np.ndarray, q: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Kress's substitution ``w``, its derivative, and ``2 pi - w`` (without cancellation)."""
     def v(s: np.ndarray) -> np.ndarray:
         return (1 / q - 0.5) * ((np.pi - s) / np.pi) ** 3 + (1 / q) * (s - np.pi) / np.pi + 0.5
 
@@ -51,7 +51,7 @@ def _grading(sig: np.ndarray, q: int) -> tuple[np.ndarray, np.ndarray]:
     db = -q * v(2 * np.pi - sig) ** (q - 1) * dv(2 * np.pi - sig)
     w = 2 * np.pi * a / (a + b)
     dw = 2 * np.pi * (da * b - a * db) / (a + b) ** 2
-    return w, dw
+    return w, dw, 2 * np.pi * b / (a + b)
 
 
 def polygon_nodes(vertices: np.ndarray, n_side: int, q: int = 8):
@@ -67,15 +67,21 @@ def polygon_nodes(vertices: np.ndarray, n_side: int, q: int = 8):
     s = h * (np.arange(n) + 0.5)
     side = np.minimum((s * m / (2 * np.pi)).astype(int), m - 1)
     sig = m * s - 2 * np.pi * side
-    w, dw = _grading(sig, q)
+    w, dw, w_rev = _grading(sig, q)
     a = verts[side]
     d = verts[(side + 1) % m] - a
-    x = a + (w / (2 * np.pi))[:, None] * d
+    # Each node is stored as its nearer vertex plus an offset, so that nodes
+    # crowding a vertex from both sides keep their mutual distances to full
+    # relative precision.
+    near_start = w < np.pi
+    anchor = np.where(near_start, side, (side + 1) % m)
+    off = np.where(near_start, w / (2 * np.pi), -w_rev / (2 * np.pi))[:, None] * d
+    x = verts[anchor] + off
     dx = (m * dw / (2 * np.pi))[:, None] * d
     speed = np.hypot(dx[:, 0], dx[:, 1])
     length = np.hypot(d[:, 0], d[:, 1])
     normal = np.column_stack([d[:, 1], -d[:, 0]]) / length[:, None]
-    return x, normal, speed, s, h
+    return x, normal, speed, s, h, anchor, off
 
 
 def _log_weights(s: np.ndarray, n_total: int) -> np.ndarray:
@@ -89,9 +95,11 @@ def _log_weights(s: np.ndarray, n_total: int) -> np.ndarray:
     return -(2 * np.pi / nh) * table[idx] - (np.pi / nh**2) * np.cos(nh * diff)
 
 
-def _operators(x, normal, speed, s, h, k):
+def _operators(x, normal, speed, s, h, anchor, off, k):
     n = x.shape[0]
     dxy = x[:, None, :] - x[None, :, :]
+    same = anchor[:, None] == anchor[None, :]
+    dxy[same] = (off[:, None, :] - off[None, :, :])[same]
     r = np.hypot(dxy[..., 0], dxy[..., 1])
     eye = np.eye(n, dtype=bool)
     # Nodes next to a vertex may round onto it (their weights are ~1e-17 and
@@ -119,8 +127,8 @@ def _operators(x, normal, speed, s, h, k):
 
 def solve_polygon(vertices, k: float, kind: str, from_deg, angles_deg, *, n_side: int = 200, q: int = 8):
     """Far field ``(n_angles, n_incidences)`` of a polygon, sound-soft (``'dirichlet'``) or sound-hard."""
-    x, normal, speed, s, h = polygon_nodes(np.asarray(vertices, dtype=float), n_side, q)
-    s_mat, dp_mat = _operators(x, normal, speed, s, h, k)
+    x, normal, speed, s, h, anchor, off = polygon_nodes(np.asarray(vertices, dtype=float), n_side, q)
+    s_mat, dp_mat = _operators(x, normal, speed, s, h, anchor, off, k)
     phi_i = np.deg2rad(np.atleast_1d(np.asarray(from_deg, dtype=float)))
     d = np.stack([np.cos(phi_i), np.sin(phi_i)])
     u_inc = np.exp(1j * k * (x @ d))
