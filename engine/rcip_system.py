@@ -104,7 +104,7 @@ def coarse_corner_mesh(
     new_t1: list[float] = []
     new_cont: list[int] = []
     new_corner: list[bool] = []
-    zone_specs: list[tuple[int, int, float, float]] = []  # (seg_in, seg_out, delta_in, delta_out)
+    zone_specs: list[tuple[int, int, int, int]] = []  # panels of each zone, in contour order
     for c in np.unique(base.contour_of_panel):
         pan = np.flatnonzero(base.contour_of_panel == c)
         order: list[int] = []
@@ -112,7 +112,7 @@ def coarse_corner_mesh(
             if not order or order[-1] != seg_of[i]:
                 order.append(int(seg_of[i]))
         # each segment's parameter range, panel lengths, and whether it starts at a corner
-        info = {}
+        info: dict[int, dict[str, Any]] = {}
         for s in order:
             mine = pan[seg_of[pan] == s]
             info[s] = {
@@ -126,12 +126,6 @@ def coarse_corner_mesh(
         starts_corner = [info[s]["corner"] for s in order]
         ends_corner = [starts_corner[(n + 1) % nseg] for n in range(nseg)]
 
-        def seg_length(s: int) -> float:
-            a, b = info[s]["a"], info[s]["b"]
-            x = np.linspace(a, b, 65)
-            pts = segs[s].points(x)
-            return float(np.sum(np.hypot(*np.diff(pts, axis=0).T)))
-
         h_corner: dict[int, float] = {}  # keyed by position of the outgoing segment
         for n, s in enumerate(order):
             if not starts_corner[n]:
@@ -140,7 +134,7 @@ def coarse_corner_mesh(
             lim = []
             for ss, nn in ((s_in, (n - 1) % nseg), (s, n)):
                 both = starts_corner[nn] and ends_corner[nn]
-                lim.append(seg_length(ss) / (4.0 if both else 2.0))
+                lim.append(_length(segs[ss], info[ss]["a"], info[ss]["b"]) / (4.0 if both else 2.0))
             h_corner[n] = min(info[s]["first"], info[s_in]["last"], *lim)
         delta_start: dict[int, float] = {}
         delta_end: dict[int, float] = {}
@@ -209,6 +203,14 @@ def coarse_corner_mesh(
             )
         )
     return mesh, zones
+
+
+def _length(segment: Any, a: float, b: float) -> float:
+    """Arc length of ``segment`` between parameters ``a`` and ``b`` (Gauss-Legendre)."""
+    x, w = np.polynomial.legendre.leggauss(32)
+    t = a + (b - a) * 0.5 * (x + 1.0)
+    d = segment.derivative(t)
+    return float(0.5 * (b - a) * np.dot(w, np.hypot(d[:, 0], d[:, 1])))
 
 
 def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
