@@ -54,17 +54,29 @@ from .formulations import coupling_constants
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .operators import assemble_operators
 
-__all__ = ["RcipSolution", "coarse_corner_mesh", "rcip_solve", "system_for"]
+__all__ = ["RcipSolution", "coarse_corner_mesh", "fields_of", "rcip_solve", "system_for"]
 
 FloatArray = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
 
-KINDS = ("dirichlet", "neumann", "robin")
+KINDS = ("dirichlet", "neumann", "robin", "neumann-regularised")
+#: Coupling of the regularised sound-hard system (any value with a non-zero
+#: imaginary part and ``c != -2`` keeps it uniquely solvable, see ``system_for``).
+REGULARISER_COUPLING = 1j
+
+
+def fields_of(kind: str) -> int:
+    """Unknowns per node of a formulation."""
+    return 2 if kind == "neumann-regularised" else 1
 
 
 @dataclass
 class RcipSolution:
-    """Traces on the coarse mesh (weighted in the corner zones) and bookkeeping."""
+    """Traces on the coarse mesh (weighted in the corner zones) and bookkeeping.
+
+    ``n_unknowns`` is the size of the dense system solved (twice the
+    nodes for the regularised sound-hard block system).
+    """
 
     mesh: PanelMesh
     zones: list[CornerZone]
@@ -72,12 +84,8 @@ class RcipSolution:
     psi: ComplexArray
     levels: list[int]
     compressions: int
+    n_unknowns: int
     timings_s: dict[str, float] = field(default_factory=dict)
-
-    @property
-    def n_unknowns(self) -> int:
-        """Size of the dense system that was solved."""
-        return int(self.u.shape[0])
 
 
 def coarse_corner_mesh(
@@ -220,6 +228,26 @@ def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
     ``A = I/2 + D' + beta S``. Neumann: unknown ``u``,
     ``A = I/2 - D - alpha T``. Robin: unknown ``u``,
     ``A = I/2 - D + lam S + alpha (lam (I/2 + D') - T)``.
+    Neumann, regularised: unknowns ``u`` and ``w' = w / |k|``, with
+    ``w = T u + du_inc/dn`` (zero at the solution: the residual of E2),
+
+        [ I/2 - D      -c |k| S_reg ] [u ]   [ u_inc           ]
+        [ -T / |k|     I            ] [w'] = [ du_inc/dn / |k| ]
+
+    whose Schur complement ``I/2 - D - c S_reg T`` is the regularised
+    combined equation: E1 plus ``c S_reg`` times E2, ``S_reg`` the single
+    layer at the imaginary wavenumber ``-j |k|`` (kernel ``K0(|k| r) / (2 pi)``,
+    positive definite). By Calderon's identity ``S T = D^2 - I/4`` (plus a
+    compact part when the wavenumbers differ) it is
+    ``(1/2 + c/4) I - D - c D^2 + compact``, of the second kind
+    (Bruno, Elling & Turc, Int. J. Numer. Meth. Eng. 91, 2012, regularised
+    combined field equations; from memory). Uniqueness: for a null vector,
+    the double-layer potential ``W = D u`` has inside the body
+    ``W = -c S_reg dW/dn``; Green's first identity makes
+    ``conj(c) <S_reg phi, phi>`` real, so ``Im c != 0`` forces ``dW/dn = 0``,
+    ``W = 0`` inside and (exterior Neumann uniqueness) outside, hence ``u = 0``.
+    Writing the composition as a block system keeps every block a single
+    operator whose far part is smooth, which RCIP needs.
     """
     if kind not in KINDS:
         raise RcipError(f"unknown boundary kind {kind!r}; expected one of {KINDS}")
@@ -228,6 +256,17 @@ def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
     def build(mesh: PanelMesh) -> ComplexArray:
         n = mesh.n_nodes
         eye = np.eye(n)
+        if kind == "neumann-regularised":
+            ops = assemble_operators(mesh, k, need_s=True, need_d=True, need_dp=False, need_t=True)
+            reg = assemble_operators(mesh, -1j * abs(k), need_s=True, need_d=False, need_dp=False, need_t=False)
+            assert ops.D is not None and ops.T is not None and reg.S is not None
+            if not mesh.segments:
+                _drop_wrap_joint(mesh, k, ops.T)
+            c = REGULARISER_COUPLING
+            return np.block([
+                [0.5 * eye - ops.D, -c * abs(k) * reg.S],
+                [-ops.T / abs(k), eye.astype(complex)],
+            ])
         if kind == "dirichlet":
             ops = assemble_operators(mesh, k, need_s=True, need_d=False, need_dp=True, need_t=False)
             assert ops.S is not None and ops.Dp is not None
@@ -324,19 +363,21 @@ def rcip_solve(
     compressions = 0
     # K° = A - A* (A* = identity off the zones), then the system I + K° R.
     system = a.copy()
+    nf = fields_of(kind)
     n = mesh.n_nodes
-    system[np.diag_indices(n)] -= 1.0  # K° off the zones (fixed in the zones below)
+    system[np.diag_indices(nf * n)] -= 1.0  # K° off the zones (fixed in the zones below)
     zone_idx = []
     r_list = []
     for z in zones:
-        idx = np.concatenate([np.arange(i * p, (i + 1) * p) for i in z.panels])
+        idx1 = np.concatenate([np.arange(i * p, (i + 1) * p) for i in z.panels])
+        idx = np.concatenate([idx1 + f * n for f in range(nf)])
         nlev = levels if levels is not None else levels_for(z, tolerance)
         used_levels.append(nlev)
         key = z.key((kind, float(k), complex(lam), nlev, p))
         if key is not None and key in cache:
             r_mat, a_star = cache[key]
         else:
-            r_mat, a_star = compressed_inverse(z, build, p=p, n_fields=1, levels=nlev)
+            r_mat, a_star = compressed_inverse(z, build, p=p, n_fields=nf, levels=nlev)
             compressions += 1
             if key is not None:
                 cache[key] = (r_mat, a_star)
@@ -348,13 +389,15 @@ def rcip_solve(
     # right-multiply K° by R on each zone's columns, then add I
     for idx, r_mat in zip(zone_idx, r_list):
         system[:, idx] = system[:, idx] @ r_mat
-    system[np.diag_indices(n)] += 1.0
+    system[np.diag_indices(nf * n)] += 1.0
     u_inc, dn_inc = u_inc_fn(mesh.nodes, mesh.normals)
     alpha, beta = coupling_constants(k)
     if kind == "dirichlet":
         rhs = (dn_inc + beta * u_inc) / abs(k)
     elif kind == "neumann":
         rhs = u_inc + alpha * dn_inc
+    elif kind == "neumann-regularised":
+        rhs = np.vstack([u_inc, dn_inc / abs(k)])
     else:
         rhs = u_inc + alpha * dn_inc
     lu = la.lu_factor(system, overwrite_a=True, check_finite=False)
@@ -369,11 +412,14 @@ def rcip_solve(
     elif kind == "neumann":
         u = rho
         psi = np.zeros_like(rho)
+    elif kind == "neumann-regularised":
+        u = rho[:n]
+        psi = np.zeros_like(u)
     else:
         u = rho
         psi = lam * rho
     return RcipSolution(
-        mesh, zones, u, psi, used_levels, compressions,
+        mesh, zones, u, psi, used_levels, compressions, nf * n,
         {
             "mesh_s": t_mesh - t_start, "assemble_s": t_asm - t_mesh, "compress_s": t_r - t_asm,
             "solve_s": t_solve - t_r, "total_s": t_solve - t_start,
