@@ -109,15 +109,16 @@ def test_unknowns_per_corner(kind, tol):
     assert abs(ff[150, 0] - ff[40, 1]) / np.max(np.abs(ff)) < max(tol, 1e-11)
 
 
-def test_impedance_square():
+@pytest.mark.parametrize("kind", ["robin", "robin-regularised"])
+def test_impedance_square(kind):
     # Leontovich impedance z = 0.5 + 0.2j (TM, lam = j k / z): reciprocity holds for any
     # impedance, a passive surface (Re z > 0) absorbs (C_ext >= C_s), and refining the
     # coarse mesh (panels of a fifth of a wavelength instead of two fifths) leaves the far field alone.
     k = 5.0
     lam = 1j * k / (0.5 + 0.2j)
     side2 = 2.0 * SQUARE
-    coarse = _solve(side2, k, "robin", [20.0, 75.0], lam=lam, mpw=1.0)
-    fine = _solve(side2, k, "robin", [20.0, 75.0], lam=lam, mpw=0.25)
+    coarse = _solve(side2, k, kind, [20.0, 75.0], lam=lam, mpw=1.0)
+    fine = _solve(side2, k, kind, [20.0, 75.0], lam=lam, mpw=0.25)
     assert fine.n_unknowns > coarse.n_unknowns
     grid = np.arange(720) * 0.5
     ff = far_field(fine.mesh, k, fine.u, fine.psi, grid)
@@ -172,3 +173,26 @@ def test_regularised_sound_hard_matches_kress():
     ref = solve_polygon(SKEWED_L, k, "neumann", [20.0, 110.0], ANGLES, n_side=n, q=q)
     f = _far(_solve(SKEWED_L, k, "neumann-regularised", [20.0, 110.0]), k)
     assert relative_error(f, ref) < 3e-10
+
+
+@pytest.mark.parametrize("kind", ["dirichlet", "neumann"])
+def test_curved_side_meets_straight_side(kind):
+    # A half disc: arc and diameter meet at right angles, so the compressed blocks are
+    # built on a curved side (Taylor expansion near the tip). Reciprocity and the optical
+    # theorem (exact identities), and agreement between two coarse meshes.
+    k = 5.0
+    con = Contour((circular_arc((0.0, 0.0), 1.0, -math.pi / 2, math.pi),
+                   Line(np.array([0.0, 1.0]), np.array([0.0, -1.0]))))
+    grid = np.arange(720) * 0.5
+    ffs = []
+    for mpw in (1.0, 0.5):
+        sol = rcip_solve([BoundaryContour(con, 0, 2 * math.pi / k)], k, kind,
+                         lambda p, n: plane_wave(p, n, k, np.array([20.0, 75.0])),
+                         tolerance=1e-12, max_panel_wavelengths=mpw)
+        assert len(sol.zones) == 2
+        ff = far_field(sol.mesh, k, sol.u, sol.psi, grid)
+        assert abs(ff[150, 0] - ff[40, 1]) / np.max(np.abs(ff)) < 1e-11
+        widths = cross_sections(sol.mesh, k, sol.u, sol.psi, np.array([20.0, 75.0]))
+        assert np.max(widths["optical_residual"]) < 1e-11
+        ffs.append(ff)
+    assert relative_error(ffs[0], ffs[1]) < 1e-10
