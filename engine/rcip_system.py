@@ -62,7 +62,6 @@ import scipy.linalg as la
 from numpy.typing import NDArray
 
 from .corners import CornerSide, CornerZone, RcipError, compressed_inverse, levels_for
-from .formulations import coupling_constants
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .operators import assemble_operators
 
@@ -75,6 +74,16 @@ KINDS = ("dirichlet", "neumann", "robin", "neumann-regularised", "robin-regulari
 #: Coupling of the regularised sound-hard system (any value with a non-zero
 #: imaginary part and ``c != -2`` keeps it uniquely solvable, see ``system_for``).
 REGULARISER_COUPLING = 1j
+
+
+def coupling_constants(k: complex) -> tuple[complex, complex]:
+    """``(alpha, beta) = (-j / |k|, -j |k|)``, the couplings of the dyadic solver's equations.
+
+    Kept here (same values as ``formulations``) so that this module does not
+    depend on how that one is organised.
+    """
+    kr = abs(k)
+    return (-1j / kr, -1j * kr)
 
 
 def fields_of(kind: str) -> int:
