@@ -1,0 +1,458 @@
+"""A scattering solve on a coarse mesh whose corners are compressed by RCIP.
+
+Glossary
+--------
+coarse mesh
+    The wavelength- and geometry-sized mesh of ``build_panels`` with no
+    corner refinement, rebuilt next to every corner so that the two
+    panels touching it on each side have equal parameter length (a
+    ``CornerZone``). No corner costs more than these four panels.
+formulations
+    ``dirichlet`` (TM PEC, sound-soft; ``u = 0``): the direct combined
+    equation ``psi/2 + D' psi + beta S psi = du_inc/dn + beta u_inc``
+    (``E2 + beta E1`` of ``formulations``). It is T-free and of the second
+    kind: identity plus the adjoint double layer, whose Mellin symbol at
+    a corner keeps ``I/2 + D'`` invertible (the adjoint double layer of
+    a Lipschitz curve, Verchota 1984, from memory), plus the compact
+    ``beta S``. With ``Im beta != 0`` it has no interior resonances (the
+    argument in ``formulations``). Its unknown is the physical ``psi``, so
+    it is used as it is; the indirect Brakhage-Werner form is not needed.
+    ``neumann-regularised`` and ``robin-regularised`` (TE PEC, sound-hard;
+    impedance ``psi = lam u``): the regularised combined field equation,
+    E1 plus ``c S_reg`` times E2 with ``S_reg`` the single layer at the
+    imaginary wavenumber ``-j |k|`` (Bruno, Elling & Turc 2012), written
+    as a 2 x 2 block system in ``u`` and the residual of E2 so that RCIP
+    sees single operators only (details in ``system_for``). Second kind
+    and resonance-free; it doubles the unknowns.
+    ``neumann`` and ``robin``: the direct Burton-Miller equation
+    ``E1 + alpha E2`` (``T`` through Maue's identity and its joint terms),
+    as the dyadic solver uses. It is *not* of the second kind (``T`` is
+    hypersingular), but RCIP's algebra holds for it unchanged: ``K°`` is
+    smooth across zone boundaries, and the local blocks are inverted with
+    rows equilibrated. RCIP then reproduces dyadic refinement of the same
+    discretisation at the cost of the coarse mesh, with the same unknown
+    count as Dirichlet. Measured (``benchmarks/bench_rcip.py``, tests): it
+    agrees with the regularised system to 1e-10, with Kress's reference
+    to 1e-10, and is one to two digits closer to the exact identities;
+    resonance-free by ``Im alpha != 0`` (checked at ``ka = j'_11, j_01``).
+recursion depth
+    ``corners.levels_for``: ``log2(1/tol) / min(nu, 1) + 6`` levels, with
+    ``nu = pi / alpha`` the corner's singular exponent, so the innermost
+    panel is ``delta 2^-n`` long (46 levels for a convex right angle at
+    1e-8, 66 at 1e-12). The recursion does not stop early: a level costs
+    about 20 ms, and truncation is the only error it controls.
+traces
+    ``u`` and ``psi`` returned on the coarse nodes are the *weighted*
+    values ``R rho~`` in the corner zones (see ``corners``): right for
+    every quadrature of a smooth function against them (far field,
+    cross sections, potentials more than a panel away from a corner),
+    not point values near a corner.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import scipy.linalg as la
+from numpy.typing import NDArray
+
+from .corners import CornerSide, CornerZone, RcipError, compressed_inverse, levels_for
+from .mesh import BoundaryContour, PanelMesh, build_panels
+from .operators import assemble_operators
+
+__all__ = ["RcipSolution", "coarse_corner_mesh", "fields_of", "rcip_solve", "system_for"]
+
+FloatArray = NDArray[np.float64]
+ComplexArray = NDArray[np.complex128]
+
+KINDS = ("dirichlet", "neumann", "robin", "neumann-regularised", "robin-regularised")
+#: Coupling of the regularised sound-hard system (any value with a non-zero
+#: imaginary part and ``c != -2`` keeps it uniquely solvable, see ``system_for``).
+REGULARISER_COUPLING = 1j
+
+
+def coupling_constants(k: complex) -> tuple[complex, complex]:
+    """``(alpha, beta) = (-j / |k|, -j |k|)``, the couplings of the dyadic solver's equations.
+
+    Kept here (same values as ``formulations``) so that this module does not
+    depend on how that one is organised.
+    """
+    kr = abs(k)
+    return (-1j / kr, -1j * kr)
+
+
+def fields_of(kind: str) -> int:
+    """Unknowns per node of a formulation."""
+    return 2 if kind.endswith("-regularised") else 1
+
+
+@dataclass
+class RcipSolution:
+    """Traces on the coarse mesh (weighted in the corner zones) and bookkeeping.
+
+    ``n_unknowns`` is the size of the dense system solved (twice the
+    nodes for the regularised sound-hard block system).
+    """
+
+    mesh: PanelMesh
+    zones: list[CornerZone]
+    u: ComplexArray
+    psi: ComplexArray
+    levels: list[int]
+    compressions: int
+    n_unknowns: int
+    timings_s: dict[str, float] = field(default_factory=dict)
+
+
+def coarse_corner_mesh(
+    boundaries: Sequence[BoundaryContour],
+    *,
+    p: int = 16,
+    tolerance: float = 1e-8,
+    max_panel_wavelengths: float = 1.0,
+) -> tuple[PanelMesh, list[CornerZone]]:
+    """The coarse mesh with two equal panels on each side of every corner.
+
+    The panel next to a corner on each side gets the length ``h`` of the
+    shorter of the two panels ``build_panels`` put there (without corner
+    refinement), at most a quarter of a side that ends in corners at both
+    ends; the rest of each segment keeps that mesh's panel size.
+    """
+    base = build_panels(
+        boundaries, p=p, tolerance=tolerance, max_panel_wavelengths=max_panel_wavelengths, corner_levels=0
+    )
+    segs = base.segments
+    seg_of, t0, t1 = base.seg_of_panel, base.t0, base.t1
+    new_seg: list[int] = []
+    new_t0: list[float] = []
+    new_t1: list[float] = []
+    new_cont: list[int] = []
+    new_corner: list[bool] = []
+    zone_specs: list[tuple[int, int, int, int]] = []  # panels of each zone, in contour order
+    for c in np.unique(base.contour_of_panel):
+        pan = np.flatnonzero(base.contour_of_panel == c)
+        order: list[int] = []
+        for i in pan:
+            if not order or order[-1] != seg_of[i]:
+                order.append(int(seg_of[i]))
+        # each segment's parameter range, panel lengths, and whether it starts at a corner
+        info: dict[int, dict[str, Any]] = {}
+        for s in order:
+            mine = pan[seg_of[pan] == s]
+            info[s] = {
+                "a": float(t0[mine].min()), "b": float(t1[mine].max()),
+                "corner": bool(base.corner_at_start[mine[np.argmin(t0[mine])]]),
+                "first": float(base.lengths[mine[np.argmin(t0[mine])]]),
+                "last": float(base.lengths[mine[np.argmax(t1[mine])]]),
+                "dt": float(np.min(t1[mine] - t0[mine])),
+            }
+        nseg = len(order)
+        starts_corner = [info[s]["corner"] for s in order]
+        ends_corner = [starts_corner[(n + 1) % nseg] for n in range(nseg)]
+
+        h_corner: dict[int, float] = {}  # keyed by position of the outgoing segment
+        for n, s in enumerate(order):
+            if not starts_corner[n]:
+                continue
+            s_in = order[n - 1]
+            lim = []
+            for ss, nn in ((s_in, (n - 1) % nseg), (s, n)):
+                both = starts_corner[nn] and ends_corner[nn]
+                lim.append(_length(segs[ss], info[ss]["a"], info[ss]["b"]) / (4.0 if both else 2.0))
+            h_corner[n] = min(info[s]["first"], info[s_in]["last"], *lim)
+        delta_start: dict[int, float] = {}
+        delta_end: dict[int, float] = {}
+        for n, h in h_corner.items():
+            s, s_in = order[n], order[n - 1]
+            sp_out = float(np.hypot(*segs[s].derivative(np.array([info[s]["a"]]))[0]))
+            sp_in = float(np.hypot(*segs[s_in].derivative(np.array([info[s_in]["b"]]))[0]))
+            delta_start[n] = h / sp_out
+            delta_end[(n - 1) % nseg] = h / sp_in
+        first_panel_of: dict[int, int] = {}
+        last_two_of: dict[int, tuple[int, int]] = {}
+        for n, s in enumerate(order):
+            a, b = info[s]["a"], info[s]["b"]
+            pieces: list[tuple[float, float]] = []
+            lo, hi = a, b
+            if n in delta_start:
+                d = delta_start[n]
+                pieces += [(a, a + d), (a + d, a + 2 * d)]
+                lo = a + 2 * d
+            tail: list[tuple[float, float]] = []
+            if n in delta_end:
+                d = delta_end[n]
+                tail = [(b - 2 * d, b - d), (b - d, b)]
+                hi = b - 2 * d
+            if hi - lo > 1e-9 * (b - a):
+                m = max(1, math.ceil((hi - lo) / info[s]["dt"] - 1e-9))
+                edges = np.linspace(lo, hi, m + 1)
+                pieces += list(zip(edges[:-1].tolist(), edges[1:].tolist()))
+            elif pieces and tail:
+                # the two zones meet: close the tiny gap inside the outer panels
+                pieces[-1] = (pieces[-1][0], hi)
+            pieces += tail
+            for k_, (x0, x1) in enumerate(pieces):
+                if k_ == 0:
+                    first_panel_of[n] = len(new_seg)
+                new_seg.append(s)
+                new_t0.append(x0)
+                new_t1.append(x1)
+                new_cont.append(int(c))
+                new_corner.append(k_ == 0 and starts_corner[n])
+            last_two_of[n] = (len(new_seg) - 2, len(new_seg) - 1)
+        for n in h_corner:
+            s, s_in = order[n], order[n - 1]
+            m_in = (n - 1) % nseg
+            i_out = first_panel_of[n]
+            i_oi, i_ii = last_two_of[m_in]
+            zone_specs.append((i_oi, i_ii, i_out, i_out + 1))
+    mesh = PanelMesh(
+        p, segs, np.array(new_seg), np.array(new_t0), np.array(new_t1), np.array(new_cont),
+        base.body_of_contour, np.array(new_corner),
+    )
+    zones: list[CornerZone] = []
+    for i_oi, i_ii, i_io, i_oo in zone_specs:
+        s_in, s_out = int(mesh.seg_of_panel[i_ii]), int(mesh.seg_of_panel[i_io])
+        tc_in, tc_out = float(mesh.t1[i_ii]), float(mesh.t0[i_io])
+        d_in = tc_in - float(mesh.t0[i_ii])
+        d_out = float(mesh.t1[i_io]) - tc_out
+        zones.append(
+            CornerZone(
+                point=segs[s_out].points(np.array([tc_out]))[0],
+                incoming=CornerSide(segs[s_in], tc_in, -1),
+                outgoing=CornerSide(segs[s_out], tc_out, +1),
+                panels=(i_oi, i_ii, i_io, i_oo),
+                delta=(d_in, d_out),
+                outer=(tc_in - float(mesh.t0[i_oi]), float(mesh.t1[i_oo]) - tc_out),
+            )
+        )
+    return mesh, zones
+
+
+def _length(segment: Any, a: float, b: float) -> float:
+    """Arc length of ``segment`` between parameters ``a`` and ``b`` (Gauss-Legendre)."""
+    x, w = np.polynomial.legendre.leggauss(32)
+    t = a + (b - a) * 0.5 * (x + 1.0)
+    d = segment.derivative(t)
+    return float(0.5 * (b - a) * np.dot(w, np.hypot(d[:, 0], d[:, 1])))
+
+
+def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
+    """The full system matrix on any mesh (global or local) for one formulation.
+
+    Returns a function ``mesh -> A``. Dirichlet: unknown ``psi / |k|``,
+    ``A = I/2 + D' + beta S``. Neumann: unknown ``u``,
+    ``A = I/2 - D - alpha T``. Robin: unknown ``u``,
+    ``A = I/2 - D + lam S + alpha (lam (I/2 + D') - T)``.
+    Neumann, regularised: unknowns ``u`` and ``w' = w / |k|``, with
+    ``w = T u + du_inc/dn`` (zero at the solution: the residual of E2),
+
+        [ I/2 - D      -c |k| S_reg ] [u ]   [ u_inc           ]
+        [ -T / |k|     I            ] [w'] = [ du_inc/dn / |k| ]
+
+    whose Schur complement ``I/2 - D - c S_reg T`` is the regularised
+    combined equation: E1 plus ``c S_reg`` times E2, ``S_reg`` the single
+    layer at the imaginary wavenumber ``-j |k|`` (kernel ``K0(|k| r) / (2 pi)``,
+    positive definite). By Calderon's identity ``S T = D^2 - I/4`` (plus a
+    compact part when the wavenumbers differ) it is
+    ``(1/2 + c/4) I - D - c D^2 + compact``, of the second kind
+    (Bruno, Elling & Turc, Int. J. Numer. Meth. Eng. 91, 2012, regularised
+    combined field equations; from memory). Uniqueness: for a null vector,
+    the double-layer potential ``W = D u`` has inside the body
+    ``W = -c S_reg dW/dn``; Green's first identity makes
+    ``conj(c) <S_reg phi, phi>`` real, so ``Im c != 0`` forces ``dW/dn = 0``,
+    ``W = 0`` inside and (exterior Neumann uniqueness) outside, hence ``u = 0``.
+    Writing the composition as a block system keeps every block a single
+    operator whose far part is smooth, which RCIP needs.
+    Robin, regularised: the same with ``psi = lam u`` in E1 and E2,
+    ``A11 = I/2 - D + lam S`` and ``A21 = (lam (I/2 + D') - T) / |k|``;
+    the added terms are compact, so the system stays of the second kind.
+    """
+    if kind not in KINDS:
+        raise RcipError(f"unknown boundary kind {kind!r}; expected one of {KINDS}")
+    alpha, beta = coupling_constants(k)
+
+    def build(mesh: PanelMesh) -> ComplexArray:
+        n = mesh.n_nodes
+        eye = np.eye(n)
+        if kind.endswith("-regularised"):
+            robin = kind.startswith("robin")
+            ops = assemble_operators(mesh, k, need_s=True, need_d=True, need_dp=robin, need_t=True)
+            reg = assemble_operators(mesh, -1j * abs(k), need_s=True, need_d=False, need_dp=False, need_t=False)
+            assert ops.D is not None and ops.T is not None and ops.S is not None and reg.S is not None
+            if not mesh.segments:
+                _drop_wrap_joint(mesh, k, ops.T)
+            c = REGULARISER_COUPLING
+            a11 = 0.5 * eye - ops.D
+            a21 = -ops.T
+            if robin:
+                assert ops.Dp is not None
+                a11 = a11 + lam * ops.S
+                a21 = a21 + lam * (0.5 * eye + ops.Dp)
+            return np.block([
+                [a11, -c * abs(k) * reg.S],
+                [a21 / abs(k), eye.astype(complex)],
+            ])
+        if kind == "dirichlet":
+            ops = assemble_operators(mesh, k, need_s=True, need_d=False, need_dp=True, need_t=False)
+            assert ops.S is not None and ops.Dp is not None
+            return 0.5 * eye + ops.Dp + beta * ops.S
+        ops = assemble_operators(mesh, k, need_s=True, need_d=True, need_dp=kind == "robin", need_t=True)
+        assert ops.D is not None and ops.T is not None and ops.S is not None
+        t_mat = ops.T
+        if not mesh.segments:
+            _drop_wrap_joint(mesh, k, t_mat)
+        if kind == "neumann":
+            return 0.5 * eye - ops.D - alpha * t_mat
+        assert ops.Dp is not None
+        return 0.5 * eye - ops.D + lam * ops.S + alpha * (lam * (0.5 * eye + ops.Dp) - t_mat)
+
+    return build
+
+
+def _drop_wrap_joint(mesh: PanelMesh, k: float, t_mat: ComplexArray) -> None:
+    """Make Maue's joint terms right for a local zone mesh, an open chain of panels.
+
+    ``PanelMesh.neighbours`` closes the chain, so the point-mass term at the
+    start of the first panel pairs that panel's start value with the last
+    panel's end value, a joint that does not exist. Each open end instead
+    keeps the half of its true joint term that involves the zone's own
+    density (the first panel's start value, the last panel's end value):
+    in the recursion those ends are interior joints of the next coarser
+    level, whose inner-inner block the compressed inverse stands for. The
+    other half involves the density outside the zone and belongs to ``K°``.
+    """
+    from .kernels import kernel_matrices
+    from .quadrature import gauss_legendre, interpolation_matrix
+
+    p = mesh.p
+    x, _ = gauss_legendre(p)
+    at_end = interpolation_matrix(x, np.array([1.0]))[0]
+    last = mesh.n_panels - 1
+    joints = np.vstack([mesh.ends[0:1, 0, :], mesh.ends[last : last + 1, 1, :]])
+    _, _, _, g = kernel_matrices(
+        mesh.nodes, mesh.normals, joints, np.zeros_like(joints), k,
+        want_s=False, want_d=False, want_dp=False, want_dt=True,
+    )
+    # undo the wrap (-g_start at_end on the last panel), add the end joint's own half
+    t_mat[:, last * p : (last + 1) * p] += (g[:, 0:1] - g[:, 1:2]) * at_end[None, :]
+
+
+def rcip_solve(
+    boundaries: Sequence[BoundaryContour],
+    k: float,
+    kind: str,
+    u_inc_fn: Any,
+    *,
+    lam: complex = 0.0,
+    p: int = 16,
+    tolerance: float = 1e-10,
+    max_panel_wavelengths: float = 1.0,
+    levels: int | None = None,
+    mesh_zones: tuple[PanelMesh, list[CornerZone]] | None = None,
+) -> RcipSolution:
+    """Solve one scene of a single boundary kind with RCIP at its corners.
+
+    Parameters
+    ----------
+    boundaries
+        Contours to mesh (their wavelength sets the panel size).
+    k
+        Wavenumber (real, positive).
+    kind
+        ``"dirichlet"``, ``"neumann"`` or ``"robin"``.
+    u_inc_fn
+        ``(points, normals) -> (u_inc, du_inc/dn)``, each ``(n, m)``.
+    lam
+        Robin factor: ``psi = lam u``.
+    p, tolerance, max_panel_wavelengths
+        Mesh parameters (``tolerance`` also sets the recursion depth).
+    levels
+        Dyadic levels of every corner (default from the tolerance and angle).
+    mesh_zones
+        A prepared ``coarse_corner_mesh`` (to reuse it).
+
+    Returns
+    -------
+    RcipSolution
+    """
+    t_start = time.perf_counter()
+    mesh, zones = mesh_zones if mesh_zones is not None else coarse_corner_mesh(
+        boundaries, p=p, tolerance=tolerance, max_panel_wavelengths=max_panel_wavelengths
+    )
+    build = system_for(kind, k, lam)
+    t_mesh = time.perf_counter()
+    a = build(mesh)
+    t_asm = time.perf_counter()
+    cache: dict[Any, tuple[ComplexArray, ComplexArray]] = {}
+    used_levels: list[int] = []
+    compressions = 0
+    # K° = A - A* (A* = identity off the zones), then the system I + K° R.
+    system = a.copy()
+    nf = fields_of(kind)
+    n = mesh.n_nodes
+    system[np.diag_indices(nf * n)] -= 1.0  # K° off the zones (fixed in the zones below)
+    zone_idx = []
+    r_list = []
+    for z in zones:
+        idx1 = np.concatenate([np.arange(i * p, (i + 1) * p) for i in z.panels])
+        idx = np.concatenate([idx1 + f * n for f in range(nf)])
+        nlev = levels if levels is not None else levels_for(z, tolerance)
+        used_levels.append(nlev)
+        key = z.key((kind, float(k), complex(lam), nlev, p))
+        if key is not None and key in cache:
+            r_mat, a_star = cache[key]
+        else:
+            r_mat, a_star = compressed_inverse(z, build, p=p, n_fields=nf, levels=nlev)
+            compressions += 1
+            if key is not None:
+                cache[key] = (r_mat, a_star)
+        # within the zone: K° = A_zone - A*_zone
+        system[np.ix_(idx, idx)] = a[np.ix_(idx, idx)] - a_star
+        zone_idx.append(idx)
+        r_list.append(r_mat)
+    t_r = time.perf_counter()
+    # right-multiply K° by R on each zone's columns, then add I
+    for idx, r_mat in zip(zone_idx, r_list):
+        system[:, idx] = system[:, idx] @ r_mat
+    system[np.diag_indices(nf * n)] += 1.0
+    u_inc, dn_inc = u_inc_fn(mesh.nodes, mesh.normals)
+    alpha, beta = coupling_constants(k)
+    if kind == "dirichlet":
+        rhs = (dn_inc + beta * u_inc) / abs(k)
+    elif kind == "neumann":
+        rhs = u_inc + alpha * dn_inc
+    elif kind.endswith("-regularised"):
+        rhs = np.vstack([u_inc, dn_inc / abs(k)])
+    else:
+        rhs = u_inc + alpha * dn_inc
+    lu = la.lu_factor(system, overwrite_a=True, check_finite=False)
+    rho_t = la.lu_solve(lu, rhs, check_finite=False)
+    rho = rho_t.copy()
+    for idx, r_mat in zip(zone_idx, r_list):
+        rho[idx] = r_mat @ rho_t[idx]
+    t_solve = time.perf_counter()
+    if kind == "dirichlet":
+        u = np.zeros_like(rho)
+        psi = abs(k) * rho
+    elif kind == "neumann":
+        u = rho
+        psi = np.zeros_like(rho)
+    elif kind.endswith("-regularised"):
+        u = rho[:n]
+        psi = lam * u if kind.startswith("robin") else np.zeros_like(u)
+    else:
+        u = rho
+        psi = lam * rho
+    return RcipSolution(
+        mesh, zones, u, psi, used_levels, compressions, nf * n,
+        {
+            "mesh_s": t_mesh - t_start, "assemble_s": t_asm - t_mesh, "compress_s": t_r - t_asm,
+            "solve_s": t_solve - t_r, "total_s": t_solve - t_start,
+        },
+    )
