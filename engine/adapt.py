@@ -48,6 +48,9 @@ ComplexArray = NDArray[np.complex128]
 
 #: Doerfler marking: refine the fewest panels that carry this share of the estimate.
 MARK_FRACTION = 0.8
+#: Refinement stops when this many refinements in a row each failed to halve the
+#: estimate: it is then held up by rounding (or by what refining cannot reach).
+STALLED_AFTER = 2
 
 
 class AccuracyWarning(SectionwaveWarning):
@@ -130,6 +133,7 @@ def refine_until_accurate(
     previous_ff = None
     change = None
     refinements = 0
+    history: list[float] = []
     while True:
         current = evaluate(mesh)
         for key, val in current.solution.report.timings_s.items():
@@ -144,7 +148,18 @@ def refine_until_accurate(
         if current.cross_sections is not None:
             estimated = max(estimated, float(np.max(current.cross_sections.optical_residual)))
         timings["far_field_s"] += current.far_field_s + time.perf_counter() - t_est
+        history.append(estimated)
         if estimated <= tolerance or refinements >= max_refinements:
+            break
+        if len(history) > STALLED_AFTER and all(
+            history[-i] > 0.5 * history[-i - 1] for i in range(1, STALLED_AFTER + 1)
+        ):
+            msg = (
+                f"{where} refinement stopped after {refinements} refinements: the estimate "
+                f"({estimated:.2e}) no longer falls, which rounding or the conditioning of the system sets"
+            )
+            warnings.warn(msg.strip(), AccuracyWarning, stacklevel=4)
+            notes.append(msg.strip())
             break
         bad = mark_panels(est)
         refined = regrade(mesh.split(sorted(bad.tolist())))

@@ -32,7 +32,7 @@ The schema (keys may be added, never renamed)::
                   probes_csv = "probes.csv", from_deg = ... (plane waves to map;
                   default all incident waves)
     [solver]      tolerance = 1e-8, nodes_per_panel = 16, max_panel_wavelengths = auto,
-                  max_refinements = 10
+                  max_refinements = 10, corners = "compressed" | "graded"
     [output]      time_convention = "engineering" | "physics", plots = true, vtk = true
 """
 
@@ -42,7 +42,7 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, cast
+from typing import Any, Literal, cast
 
 import numpy as np
 import tomllib
@@ -102,7 +102,7 @@ KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
     "far_field": ("angles_deg",),
     "near_field": ("x_m", "y_m", "spacing_m", "count", "probes_csv", "from_deg"),
-    "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements"),
+    "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements", "corners"),
     "output": ("time_convention", "plots", "vtk"),
 }
 SHAPE_KEYS: dict[str, tuple[str, ...]] = {
@@ -527,8 +527,9 @@ def _solver(sr: _Reader) -> SolverOptions:
     refinements = sr.get("max_refinements", 10)
     if isinstance(refinements, bool) or not isinstance(refinements, int) or not 0 <= refinements <= 20:
         raise sr.fail("max_refinements", f"must be an integer from 0 to 20, got {refinements!r}")
+    corners = sr.text("corners", "compressed", choices=("compressed", "graded"))
     sr.finish(KNOWN_KEYS["solver"])
-    return SolverOptions(tol, int(p), mpw, int(refinements))
+    return SolverOptions(tol, int(p), mpw, int(refinements), cast(Literal["compressed", "graded"], corners))
 
 
 def _output(

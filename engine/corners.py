@@ -153,6 +153,12 @@ class CornerZone:
     delta: tuple[float, float]
     outer: tuple[float, float]
 
+    def renumbered(self, new_index: NDArray[np.int64]) -> CornerZone:
+        """The same zone after the mesh's panels were renumbered (``new_index[old] = new``)."""
+        from dataclasses import replace
+
+        return replace(self, panels=tuple(int(new_index[i]) for i in self.panels))  # type: ignore[arg-type]
+
     def key(self, extra: tuple[Any, ...] = ()) -> tuple[Any, ...] | None:
         """A hashable description for reuse of ``R`` between congruent corners (straight sides only)."""
         a, b = self.incoming.segment, self.outgoing.segment
@@ -178,7 +184,7 @@ class CornerZone:
         return math.pi + turn
 
 
-def levels_for(zone: CornerZone, tolerance: float) -> int:
+def levels_for(zone: CornerZone, tolerance: float, exponent: float | None = None) -> int:
     """Dyadic levels of the recursion for a tolerance.
 
     Near a corner with field-side angle ``alpha`` the fields behave like
@@ -189,7 +195,7 @@ def levels_for(zone: CornerZone, tolerance: float) -> int:
     still discretised (not dropped), this is pessimistic; six levels are
     added for safety. The recursion costs milliseconds per level.
     """
-    nu = math.pi / max(zone.exterior_angle(), 1e-3)
+    nu = math.pi / max(zone.exterior_angle(), 1e-3) if exponent is None else exponent
     n = math.ceil(math.log2(1.0 / tolerance) / min(nu, 1.0)) + 6
     return int(min(MAX_LEVELS, max(MIN_LEVELS, n)))
 
@@ -243,6 +249,8 @@ def _mesh_from_arrays(arrays: list[dict[str, FloatArray]], p: int) -> PanelMesh:
     mesh.contour_of_panel = np.zeros(npan, dtype=np.int64)
     mesh.body_of_contour = np.zeros(1, dtype=np.int64)
     mesh.corner_at_start = np.zeros(npan, dtype=bool)
+    mesh.corner_zones = ()
+    mesh.open_chain = True
     mesh.nodes = np.vstack([a["nodes"] for a in arrays])
     mesh.tangent_t = np.vstack([a["d1"] for a in arrays])
     dd = np.vstack([a["d2"] for a in arrays])
@@ -279,7 +287,7 @@ def _inner_outer(p: int, n_fields: int) -> tuple[NDArray[np.int64], NDArray[np.i
 
 
 def _stacked(mat: FloatArray, n_fields: int) -> FloatArray:
-    return np.kron(np.eye(n_fields), mat)
+    return np.asarray(np.kron(np.eye(n_fields), mat), dtype=np.float64)
 
 
 def _solve_equilibrated(a: ComplexArray, b: ComplexArray) -> ComplexArray:

@@ -179,9 +179,17 @@ class Dirichlet(Formulation):
 
 
 class Neumann(Formulation):
-    """``dudn = 0`` (TE PEC, sound-hard): unknown ``u``, balanced rows ``E1 + alpha E2``."""
+    """``dudn = 0`` (TE PEC, sound-hard): unknown ``u``, rows ``E1 + alpha E2``.
+
+    With ``balanced`` the rows are scaled by ``_balance`` (for graded corner
+    meshes); compressed corners (RCIP) need the plain rows, since their
+    scaling must not depend on the panel size.
+    """
 
     name = "neumann"
+
+    def __init__(self, balanced: bool = True) -> None:
+        self.balanced = balanced
 
     def _factor(self, k: complex) -> complex:
         return 0.0
@@ -189,7 +197,7 @@ class Neumann(Formulation):
     def outside(self, k: complex, panel_length: FloatArray) -> SideMap:
         n = panel_length.size
         alpha, _ = coupling_constants(k)
-        balance = _balance(k, panel_length)
+        balance = _balance(k, panel_length) if self.balanced else np.ones(n)
         return SideMap(
             u=np.ones((n, 1), dtype=complex),
             dudn=np.full((n, 1), self._factor(k), dtype=complex),
@@ -203,7 +211,8 @@ class Robin(Neumann):
 
     name = "robin"
 
-    def __init__(self, lam: complex) -> None:
+    def __init__(self, lam: complex, balanced: bool = True) -> None:
+        super().__init__(balanced)
         self.lam = complex(lam)
 
     def _factor(self, k: complex) -> complex:
@@ -244,11 +253,13 @@ class Penetrable(Formulation):
 
 
 def formulation_for(
-    field: FieldKind, scatterer: Scatterer, k: complex, *, flux_ratio: complex | None = None
+    field: FieldKind, scatterer: Scatterer, k: complex, *, flux_ratio: complex | None = None,
+    balanced: bool = True,
 ) -> Formulation:
     """The formulation of a boundary at wavenumber ``k`` of the region its normal points into.
 
-    ``flux_ratio`` (``beta_out / beta_in``) is needed for penetrable bodies.
+    ``flux_ratio`` (``beta_out / beta_in``) is needed for penetrable bodies;
+    ``balanced`` False gives the plain rows that compressed corners need.
 
     Raises
     ------
@@ -263,9 +274,9 @@ def formulation_for(
     if kind == "impedance":
         if scatterer.impedance is None:
             raise ProblemError(f"body {scatterer.name!r}: impedance boundary without an impedance")
-        return Robin(robin_factor(field, k, scatterer.impedance))
+        return Robin(robin_factor(field, k, scatterer.impedance), balanced)
     if kind == "hard" or (kind == "pec" and field == "te"):
-        return Neumann()
+        return Neumann(balanced)
     if kind == "soft" or (kind == "pec" and field == "tm"):
         return Dirichlet()
     raise ProblemError(f"body {scatterer.name!r}: boundary {kind!r} is not available for {field}")

@@ -21,6 +21,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -81,6 +82,10 @@ class PanelMesh:
     contour_of_panel: IntArray
     body_of_contour: IntArray
     corner_at_start: NDArray[np.bool_]
+    #: Corner zones compressed by RCIP (``corners.CornerZone``): their panels are never split.
+    corner_zones: tuple[Any, ...] = ()
+    #: True for an open chain of panels (a local corner mesh): its ends are not joined.
+    open_chain: bool = False
     nodes: FloatArray = field(init=False)
     tangent_t: FloatArray = field(init=False)
     accel_t: FloatArray = field(init=False)
@@ -186,10 +191,17 @@ class PanelMesh:
             self.corner_at_start[order],
         )
 
+    def zone_panels(self) -> NDArray[np.int64]:
+        """Panels of the compressed corner zones."""
+        return np.array(sorted({int(i) for z in self.corner_zones for i in z.panels}), dtype=np.int64)
+
     def split(self, panels: Sequence[int]) -> PanelMesh:
-        """A new mesh with the given panels halved in parameter."""
+        """A new mesh with the given panels halved in parameter (corner-zone panels are kept whole)."""
         marked = np.zeros(self.n_panels, dtype=bool)
         marked[list(panels)] = True
+        if self.corner_zones:
+            marked[self.zone_panels()] = False
+        new_index = np.cumsum(np.concatenate([[0], 1 + marked[:-1].astype(np.int64)]))
         seg, t0, t1, cont, corner = [], [], [], [], []
         for i in range(self.n_panels):
             a, b = self.t0[i], self.t1[i]
@@ -209,6 +221,7 @@ class PanelMesh:
             np.array(cont),
             self.body_of_contour,
             np.array(corner),
+            tuple(z.renumbered(new_index) for z in self.corner_zones),
         )
 
 

@@ -276,8 +276,32 @@ def _maue(mesh: PanelMesh, k: complex, s_mat: ComplexArray, dt_mat: ComplexArray
         t_mat[:, a * p : (a + 1) * p] += g[:, a : a + 1] * at_start[None, :]
         b = int(prev[a])
         t_mat[:, b * p : (b + 1) * p] -= g[:, a : a + 1] * at_end[None, :]
+    if mesh.open_chain:
+        _open_ends(mesh, k, t_mat, g[:, :1], at_end)
     add_normal_term(t_mat, s_mat, mesh.normals, complex(k * k))
     return t_mat
+
+
+def _open_ends(
+    mesh: PanelMesh, k: complex, t_mat: ComplexArray, g_start: ComplexArray, at_end: NDArray[np.float64]
+) -> None:
+    """Joint terms of an open chain of panels (a local corner mesh).
+
+    ``neighbours`` closes every chain, so the point-mass term at the start
+    of the first panel has paired that panel's start value with the last
+    panel's end value, a joint that does not exist. Each open end instead
+    keeps the half of its true joint term that involves the chain's own
+    density; the other half involves the density beyond the chain, which in
+    the corner recursion belongs to the coarser level.
+    """
+    p = mesh.p
+    last = mesh.n_panels - 1
+    end_joint = mesh.ends[last : last + 1, 1, :]
+    _, _, _, g_end = kernel_matrices(
+        mesh.nodes, mesh.normals, end_joint, np.zeros_like(end_joint), k,
+        want_s=False, want_d=False, want_dp=False, want_dt=True,
+    )
+    t_mat[:, last * p : (last + 1) * p] += (g_start - g_end) * at_end[None, :]
 
 
 def add_normal_term(t_mat: ComplexArray, s_mat: ComplexArray, normals: NDArray[np.float64], k2: complex) -> None:

@@ -242,13 +242,16 @@ class SolverOptions:
     """Accuracy target and discretisation settings.
 
     ``max_panel_wavelengths`` None lets the engine choose (see
-    ``run.panel_wavelengths``).
+    ``run.panel_wavelengths``). ``corners``: ``compressed`` (RCIP: a
+    corner costs no more unknowns than the coarse panels next to it) or
+    ``graded`` (dyadic refinement toward each corner).
     """
 
     tolerance: float = 1e-8
     nodes_per_panel: int = 16
     max_panel_wavelengths: float | None = None
     max_refinements: int = 10
+    corners: Literal["compressed", "graded"] = "compressed"
 
 
 @dataclass(frozen=True)

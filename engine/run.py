@@ -17,15 +17,18 @@ import math
 import time
 import warnings
 from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .adapt import AccuracyWarning, SolvePass, refine_until_accurate
+from .compression import CompressedSystem
 from .fields import cross_sections, far_field, far_field_each, incident_field
 from .formulations import formulation_for
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .problem import Problem
+from .rcip_system import coarse_corner_mesh
 from .regions import Layout, check_corner_contrast, scene_layout
 from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings
 from .solve import (
@@ -36,7 +39,7 @@ from .solve import (
     fits_in_memory,
     solve_boundary,
 )
-from .system import BoundarySystem, Region
+from .system import BoundarySystem, DiscreteSystem, Region
 
 __all__ = ["METHOD", "panel_wavelengths", "solve_problem"]
 
@@ -115,6 +118,10 @@ class _Scene:
                 self.wavenumbers.append(material.wavenumber(field, frequency_hz))
                 self.betas.append(material.beta(field, frequency_hz))
         contours = layout.contours
+        self.compressed = problem.solver.corners == "compressed" and any(
+            bool(c.contour.corner_flags().any()) for c in contours
+        )
+        self.cache: dict[Any, Any] = {}
         if not layout.is_simple:
             check_corner_contrast(layout, self.betas, [s.name for s in problem.scatterers])
         self.exterior = layout.exterior_contours()
@@ -129,24 +136,50 @@ class _Scene:
             out.append(BoundaryContour(c.contour, c.body, min(2 * math.pi / abs(k) for k in ks), ratio))
         return out
 
-    def system(self, mesh: PanelMesh) -> BoundarySystem:
+    def system(self, mesh: PanelMesh) -> BoundarySystem | CompressedSystem:
+        """The boundary system on ``mesh``; compressed at the corners when the mesh has corner zones."""
+        base = self._base_system(mesh)
+        if not mesh.corner_zones:
+            return base
+        return CompressedSystem(base, self._local_system(base), self.problem.solver.tolerance, self.cache)
+
+    def _base_system(self, mesh: PanelMesh) -> BoundarySystem:
         problem, layout = self.problem, self.layout
+        balanced = not self.compressed
         if layout.is_simple:
             formulations = [
-                formulation_for(problem.field, problem.scatterers[int(b)], self.k) for b in mesh.body_of_contour
+                formulation_for(problem.field, problem.scatterers[int(b)], self.k, balanced=balanced)
+                for b in mesh.body_of_contour
             ]
             return BoundarySystem(mesh, formulations, self.k)
         formulations = []
         for c in layout.contours:
             ratio = None if c.inside is None else self.betas[c.outside] / self.betas[c.inside]
-            formulations.append(
-                formulation_for(problem.field, problem.scatterers[c.body], self.wavenumbers[c.outside], flux_ratio=ratio)
-            )
+            formulations.append(formulation_for(
+                problem.field, problem.scatterers[c.body], self.wavenumbers[c.outside], flux_ratio=ratio,
+                balanced=balanced,
+            ))
         regions = [
             Region(self.wavenumbers[r], layout.region_contours(r), is_unbounded=info.is_unbounded)
             for r, info in enumerate(layout.regions)
         ]
         return BoundarySystem(mesh, formulations, self.k, regions)
+
+    def _local_system(self, base: BoundarySystem) -> Callable[[int, PanelMesh], BoundarySystem]:
+        """Systems of one contour's formulation and media on a local corner mesh."""
+
+        def build(contour: int, local: PanelMesh) -> BoundarySystem:
+            f = base.formulations[contour]
+            if self.layout.is_simple:
+                return BoundarySystem(local, [f], self.k)
+            spec = self.layout.contours[contour]
+            k_out = self.wavenumbers[spec.outside]
+            regions = [Region(k_out, ((0, 1),))]
+            if spec.inside is not None:
+                regions.append(Region(self.wavenumbers[spec.inside], ((0, -1),)))
+            return BoundarySystem(local, [f], k_out, regions)
+
+        return build
 
     def exterior_part(self, mesh: PanelMesh) -> tuple[PanelMesh, NDArray[np.int64] | None]:
         """The mesh of the contours around the unbounded region and their node indices (None: all)."""
@@ -168,6 +201,13 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
     problem, freq = scene.problem, scene.frequency_hz
     boundaries = scene.boundaries()
     tol = problem.solver.tolerance
+    if scene.compressed:
+        mesh, zones = coarse_corner_mesh(
+            boundaries, p=problem.solver.nodes_per_panel, tolerance=tol,
+            max_panel_wavelengths=panel_wavelengths(problem),
+        )
+        mesh.corner_zones = tuple(zones)
+        return mesh, []
     corner_tol = tol
     while True:
         mesh = build_panels(
@@ -275,7 +315,7 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
 
 
 def _near_fields(
-    scene: _Scene, system: BoundarySystem, u: np.ndarray, dudn: np.ndarray, dudn_inside: np.ndarray | None
+    scene: _Scene, system: DiscreteSystem, u: np.ndarray, dudn: np.ndarray, dudn_inside: np.ndarray | None
 ) -> NearFieldResult:
     """Fields on the requested grid and at the probes for the selected incident waves."""
     from .nearfield import field_at_points, field_on_grid

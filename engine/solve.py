@@ -32,7 +32,7 @@ from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
 
 from .fields import incident_field
 from .problem import IncidentWave
-from .system import BoundarySystem
+from .system import DiscreteSystem
 
 __all__ = [
     "CONDITION_WARN",
@@ -56,7 +56,7 @@ __all__ = [
 ComplexArray = NDArray[np.complex128]
 
 #: Default count of dense complex N x N matrices planned for when the system is
-#: not known (``check_memory``); a ``BoundarySystem`` states its own count.
+#: not known (``check_memory``); a ``DiscreteSystem`` states its own count.
 MATRICES_IN_FLIGHT = 4
 #: Allowance for what the plan does not count (per-panel work arrays, the
 #: mesh, right-hand sides): 5 % of the planned matrices.
@@ -190,11 +190,11 @@ class LinearSolver(Protocol):
         """Name used in reports."""
         ...
 
-    def memory_bytes(self, system: BoundarySystem) -> int:
+    def memory_bytes(self, system: DiscreteSystem) -> int:
         """Bytes a solve of ``system`` needs at its peak (nothing is allocated)."""
         ...
 
-    def prepare(self, system: BoundarySystem) -> PreparedSolver:
+    def prepare(self, system: DiscreteSystem) -> PreparedSolver:
         """Assemble and factorise (or precondition) ``system``."""
         ...
 
@@ -218,10 +218,10 @@ class DenseLU:
 
     name: str = "dense LU"
 
-    def memory_bytes(self, system: BoundarySystem) -> int:
+    def memory_bytes(self, system: DiscreteSystem) -> int:
         return int(PLAN_MARGIN * system.dense_peak_matrices() * 16 * system.n_unknowns**2)
 
-    def prepare(self, system: BoundarySystem) -> PreparedSolver:
+    def prepare(self, system: DiscreteSystem) -> PreparedSolver:
         t0 = time.perf_counter()
         check_memory(system.n_unknowns, matrices=PLAN_MARGIN * system.dense_peak_matrices())
         matrix = system.dense_matrix()
@@ -246,7 +246,7 @@ class SolveReport:
 class BoundarySolution:
     """Boundary traces for every incident wave (columns) and the raw unknowns."""
 
-    system: BoundarySystem
+    system: DiscreteSystem
     unknowns: ComplexArray
     u: ComplexArray
     dudn: ComplexArray
@@ -254,11 +254,11 @@ class BoundarySolution:
 
 
 def solve_boundary(
-    system: BoundarySystem,
+    system: DiscreteSystem,
     incidents: Sequence[IncidentWave],
     *,
     solver: LinearSolver | None = None,
-    incident_values: Callable[[BoundarySystem], tuple[ComplexArray, ComplexArray]] | None = None,
+    incident_values: Callable[[DiscreteSystem], tuple[ComplexArray, ComplexArray]] | None = None,
 ) -> BoundarySolution:
     """Solve ``system`` for each incident wave and recover the surface traces.
 

@@ -23,6 +23,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Protocol
 
 import numpy as np
 from numpy.typing import NDArray
@@ -31,10 +32,46 @@ from .formulations import Formulation, SideMap
 from .mesh import PanelMesh
 from .operators import Operators, assemble_operators
 
-__all__ = ["BoundarySystem", "Region"]
+__all__ = ["BoundarySystem", "DiscreteSystem", "Region"]
 
 ComplexArray = NDArray[np.complex128]
 IntArray = NDArray[np.int64]
+
+
+class DiscreteSystem(Protocol):
+    """What solvers need of a boundary system (``BoundarySystem``, ``compression.CompressedSystem``)."""
+
+    mesh: PanelMesh
+    k: complex
+
+    @property
+    def n_unknowns(self) -> int:
+        """Number of unknowns (and rows)."""
+        ...
+
+    def dense_matrix(self) -> ComplexArray:
+        """The system matrix."""
+        ...
+
+    def dense_peak_matrices(self) -> float:
+        """Complex N x N arrays alive at the peak of a dense solve."""
+        ...
+
+    def right_hand_sides(self, u_inc: ComplexArray, dudn_inc: ComplexArray) -> ComplexArray:
+        """Right-hand sides from the incident field at the nodes."""
+        ...
+
+    def traces(self, x: ComplexArray) -> tuple[ComplexArray, ComplexArray]:
+        """``u`` and ``dudn`` on the outside of every node."""
+        ...
+
+    def inside_traces(self, x: ComplexArray) -> tuple[ComplexArray, ComplexArray] | None:
+        """``u`` and ``dudn`` behind interface contours."""
+        ...
+
+    def node_unknowns(self, x: ComplexArray) -> list[ComplexArray]:
+        """The unknowns as node arrays, for the error estimate."""
+        ...
 
 
 @dataclass(frozen=True)

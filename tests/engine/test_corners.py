@@ -18,19 +18,20 @@ from sectionwave.engine import parse_case, solve_problem
 from tests.reference import C0, L_SHAPE, SQUARE, case
 
 
-def _solve(field, shape, tol):
+def _solve(field, shape, tol, corners="compressed"):
     k = 5.0
     doc = case(field, k * C0 / (2 * math.pi), [{"name": "b", "shape": shape, "boundary": "pec"}],
-               angles={"start": 0, "stop": 359.5, "count": 720}, solver={"tolerance": tol})
+               angles={"start": 0, "stop": 359.5, "count": 720}, solver={"tolerance": tol, "corners": corners})
     doc["incident"] = [{"kind": "plane", "from_deg": [20.0, 75.0]}]
     return solve_problem(parse_case(doc).problem).frequencies[0]
 
 
+@pytest.mark.parametrize("corners", ["compressed", "graded"])
 @pytest.mark.parametrize("shape", [SQUARE, L_SHAPE], ids=["square", "L"])
 @pytest.mark.parametrize("field", ["tm", "te"])
-def test_corner_bodies_identities_and_convergence(field, shape):
-    coarse = _solve(field, shape, 1e-6)
-    fine = _solve(field, shape, 1e-8)
+def test_corner_bodies_identities_and_convergence(field, shape, corners):
+    coarse = _solve(field, shape, 1e-6, corners)
+    fine = _solve(field, shape, 1e-8, corners)
     ff = fine.farfield
     scale = np.max(np.abs(ff))
     # Reciprocity: a wave from 20 deg seen at 75 deg equals one from 75 deg seen at 20 deg
@@ -73,7 +74,7 @@ def test_memory_limit_refines_corners_less_and_says_so(monkeypatch):
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        fr = _solve("tm", SQUARE, 1e-8)
+        fr = _solve("tm", SQUARE, 1e-8, corners="graded")
     assert any(issubclass(w.category, AccuracyWarning) and "corners were refined" in str(w.message)
                for w in caught)
     assert fr.mesh.n_nodes <= 1500
