@@ -43,10 +43,18 @@ recursion depth
     about 20 ms, and truncation is the only error it controls.
 traces
     ``u`` and ``psi`` returned on the coarse nodes are the *weighted*
-    values ``R rho~`` in the corner zones (see ``corners``): right for
-    every quadrature of a smooth function against them (far field,
-    cross sections, potentials more than a panel away from a corner),
-    not point values near a corner.
+    values ``R rho~ = P_W^T rho_fine`` in the corner zones (see
+    ``corners``): exact for every quadrature of a function that is smooth
+    on the coarse zone panels (far field, extinction, scattering width,
+    the potentials at points not too close to a corner), not point values
+    near a corner. Measured on the unit square at k = 5 (zone panels
+    ``h = 0.25``) against a mesh with ``h = 0.031``: the near field from
+    ``nearfield.field_at_points`` agrees to 3e-11 (TM) and 1e-13 (TE) at
+    ``0.4 h`` from the tip and beyond, 4e-9 / 7e-12 at ``0.2 h``, 2e-5 /
+    3e-7 at ``0.02 h``. Closer than that the fine density must be
+    reconstructed by running the recursion backwards (Helsing's tutorial,
+    "reconstruction"), which is not done here; ``C_abs`` of an impedance
+    surface (a quadratic form in the traces) has the same limitation.
 """
 
 from __future__ import annotations
