@@ -297,7 +297,13 @@ def _solve_equilibrated(a: ComplexArray, b: ComplexArray) -> ComplexArray:
 
 
 def compressed_inverse(
-    zone: CornerZone, local_matrix: LocalMatrix, *, p: int, n_fields: int, levels: int
+    zone: CornerZone,
+    local_matrix: LocalMatrix,
+    *,
+    p: int,
+    n_fields: int,
+    levels: int,
+    history: dict[int, tuple[ComplexArray, ComplexArray, ComplexArray]] | None = None,
 ) -> tuple[ComplexArray, ComplexArray]:
     """``R`` for one corner and the zone's own coarse block ``A*`` (type-c at scale 1).
 
@@ -315,6 +321,14 @@ def compressed_inverse(
         Unknowns per node (1, or 2 for a block system).
     levels
         Dyadic levels below the coarse zone.
+    history
+        If given, filled with ``{level: (X, R, B)}`` for the reconstruction
+        of the fine density: ``X`` maps ``rho~`` of the zone at that level
+        (type-c at scale ``2^-(level-1)``) to the type-b vector, whose two
+        outer panels hold the density itself and whose inner four hold the
+        next level's weighted density; ``R`` is that level's compressed
+        inverse and ``B`` the type-b block from outer sources to inner
+        targets, so that the next level's ``rho~ = (P rho~)_inner - B rho_outer``.
 
     Returns
     -------
@@ -324,7 +338,7 @@ def compressed_inverse(
     if levels < 1:
         raise RcipError("RCIP needs at least one level")
     with _few_threads():
-        return _compressed_inverse(zone, local_matrix, p=p, n_fields=n_fields, levels=levels)
+        return _compressed_inverse(zone, local_matrix, p=p, n_fields=n_fields, levels=levels, history=history)
 
 
 def _blas_thread_setter() -> tuple[Any, Any] | None:
@@ -373,7 +387,13 @@ def _few_threads() -> Iterator[None]:
 
 
 def _compressed_inverse(
-    zone: CornerZone, local_matrix: LocalMatrix, *, p: int, n_fields: int, levels: int
+    zone: CornerZone,
+    local_matrix: LocalMatrix,
+    *,
+    p: int,
+    n_fields: int,
+    levels: int,
+    history: dict[int, tuple[ComplexArray, ComplexArray, ComplexArray]] | None,
 ) -> tuple[ComplexArray, ComplexArray]:
     pc = prolongation(p)
     inner, outer = _inner_outer(p, n_fields)
@@ -400,6 +420,8 @@ def _compressed_inverse(
             right[outer] = pp[outer]
             x = _solve_equilibrated(mat, right)
         r_mat = pwt @ x
+        if history is not None:
+            history[level] = (x, r_mat, a_b[np.ix_(inner, outer)])
     assert r_mat is not None
     a_star = local_matrix(local_zone_mesh(zone, 1.0, "c", p))
     return r_mat, a_star

@@ -43,10 +43,20 @@ recursion depth
     about 20 ms, and truncation is the only error it controls.
 traces
     ``u`` and ``psi`` returned on the coarse nodes are the *weighted*
-    values ``R rho~`` in the corner zones (see ``corners``): right for
-    every quadrature of a smooth function against them (far field,
-    cross sections, potentials more than a panel away from a corner),
-    not point values near a corner.
+    values ``R rho~ = P_W^T rho_fine`` in the corner zones (see
+    ``corners``): exact for every quadrature of a function that is smooth
+    on the coarse zone panels (far field, extinction, scattering width,
+    the potentials at points not too close to a corner), not point values
+    near a corner. Measured on the unit square at k = 5 (zone panels
+    ``h = 0.25``) against a mesh with ``h = 0.031``: the near field from
+    ``nearfield.field_at_points`` agrees to 3e-11 (TM) and 1e-13 (TE) at
+    ``0.4 h`` from the tip and beyond, 4e-9 / 7e-12 at ``0.2 h``, 2e-5 /
+    3e-7 at ``0.02 h``. Closer than that, ``fine_traces`` rebuilds the
+    fine density by running the recursion backwards (Helsing's tutorial,
+    "reconstruction") on a mesh refined toward every tip; with 14 levels
+    the near field at ``0.004 h`` from the tip then agrees between the two
+    meshes to 9e-12 (TM) and 1e-13 (TE). ``C_abs`` of an impedance surface
+    (a quadratic form in the traces) should also use the fine traces.
 """
 
 from __future__ import annotations
@@ -61,11 +71,11 @@ import numpy as np
 import scipy.linalg as la
 from numpy.typing import NDArray
 
-from .corners import CornerSide, CornerZone, RcipError, compressed_inverse, levels_for
+from .corners import CornerSide, CornerZone, RcipError, compressed_inverse, levels_for, prolongation
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .operators import assemble_operators
 
-__all__ = ["RcipSolution", "coarse_corner_mesh", "fields_of", "rcip_solve", "system_for"]
+__all__ = ["RcipSolution", "coarse_corner_mesh", "fields_of", "fine_traces", "rcip_solve", "system_for"]
 
 FloatArray = NDArray[np.float64]
 ComplexArray = NDArray[np.complex128]
@@ -107,6 +117,11 @@ class RcipSolution:
     compressions: int
     n_unknowns: int
     timings_s: dict[str, float] = field(default_factory=dict)
+    kind: str = ""
+    k: float = 0.0
+    lam: complex = 0.0
+    rho_tilde: ComplexArray | None = None
+    histories: list[dict[int, tuple[ComplexArray, ComplexArray, ComplexArray]]] | None = None
 
 
 def coarse_corner_mesh(
@@ -355,6 +370,7 @@ def rcip_solve(
     max_panel_wavelengths: float = 1.0,
     levels: int | None = None,
     mesh_zones: tuple[PanelMesh, list[CornerZone]] | None = None,
+    keep_history: bool = False,
 ) -> RcipSolution:
     """Solve one scene of a single boundary kind with RCIP at its corners.
 
@@ -376,6 +392,8 @@ def rcip_solve(
         Dyadic levels of every corner (default from the tolerance and angle).
     mesh_zones
         A prepared ``coarse_corner_mesh`` (to reuse it).
+    keep_history
+        Keep what ``fine_traces`` needs to rebuild the density near corners.
 
     Returns
     -------
@@ -389,7 +407,8 @@ def rcip_solve(
     t_mesh = time.perf_counter()
     a = build(mesh)
     t_asm = time.perf_counter()
-    cache: dict[Any, tuple[ComplexArray, ComplexArray]] = {}
+    cache: dict[Any, tuple[ComplexArray, ComplexArray, dict[int, tuple[ComplexArray, ComplexArray, ComplexArray]]]] = {}
+    histories: list[dict[int, tuple[ComplexArray, ComplexArray, ComplexArray]]] = []
     used_levels: list[int] = []
     compressions = 0
     # K° = A - A* (A* = identity off the zones), then the system I + K° R.
@@ -406,12 +425,16 @@ def rcip_solve(
         used_levels.append(nlev)
         key = z.key((kind, float(k), complex(lam), nlev, p))
         if key is not None and key in cache:
-            r_mat, a_star = cache[key]
+            r_mat, a_star, hist = cache[key]
         else:
-            r_mat, a_star = compressed_inverse(z, build, p=p, n_fields=nf, levels=nlev)
+            hist = {}
+            r_mat, a_star = compressed_inverse(
+                z, build, p=p, n_fields=nf, levels=nlev, history=hist if keep_history else None
+            )
             compressions += 1
             if key is not None:
-                cache[key] = (r_mat, a_star)
+                cache[key] = (r_mat, a_star, hist)
+        histories.append(hist)
         # within the zone: K° = A_zone - A*_zone
         system[np.ix_(idx, idx)] = a[np.ix_(idx, idx)] - a_star
         zone_idx.append(idx)
@@ -455,4 +478,98 @@ def rcip_solve(
             "mesh_s": t_mesh - t_start, "assemble_s": t_asm - t_mesh, "compress_s": t_r - t_asm,
             "solve_s": t_solve - t_r, "total_s": t_solve - t_start,
         },
+        kind, float(k), complex(lam),
+        rho_t if keep_history else None,
+        histories if keep_history else None,
     )
+
+
+def _traces(kind: str, k: float, lam: complex, rho: ComplexArray, n: int) -> tuple[ComplexArray, ComplexArray]:
+    """``(u, psi)`` from the unknowns of a formulation (first ``n`` rows per field)."""
+    if kind == "dirichlet":
+        return np.zeros_like(rho[:n]), abs(k) * rho[:n]
+    u = rho[:n]
+    return u, (lam * u if kind.startswith("robin") else np.zeros_like(u))
+
+
+def fine_traces(sol: RcipSolution, depth: int = 20) -> tuple[PanelMesh, ComplexArray, ComplexArray]:
+    """Mesh and traces with every corner zone refined ``depth`` times toward its tip.
+
+    The recursion is run backwards (Helsing's tutorial, "reconstruction"):
+    at each level the stored ``X`` turns that level's ``rho~`` into the true
+    density on the level's two outer panels and the next level's ``rho~``.
+    The innermost four panels (within ``delta 2^-depth`` of the tip) keep
+    the weighted density of their level. The result feeds the existing
+    near-field functions; it is good at distances from a tip beyond about
+    ``0.4 delta 2^-depth`` (``delta`` the coarse zone panel).
+
+    Raises
+    ------
+    RcipError
+        If the solution was computed without ``keep_history``.
+    """
+    if sol.rho_tilde is None or sol.histories is None:
+        raise RcipError("solve with keep_history=True to rebuild the fine density")
+    mesh, p = sol.mesh, sol.mesh.p
+    n = mesh.n_nodes
+    nf = fields_of(sol.kind)
+    m = sol.rho_tilde.shape[1]
+    rho_c = sol.rho_tilde
+    # per coarse panel: list of (seg, t0, t1, values (nf, p, m))
+    replace: dict[int, list[tuple[int, float, float, ComplexArray]]] = {}
+    for z, hist in zip(sol.zones, sol.histories):
+        nlev = max(hist)
+        d = int(min(depth, nlev - 1))
+        idx1 = np.concatenate([np.arange(i * p, (i + 1) * p) for i in z.panels])
+        v = np.concatenate([rho_c[idx1 + f * n] for f in range(nf)])
+        inner = np.concatenate([f * 6 * p + np.arange(p, 5 * p) for f in range(nf)])
+        outer = np.concatenate([f * 6 * p + np.r_[np.arange(0, p), np.arange(5 * p, 6 * p)] for f in range(nf)])
+        pp = np.kron(np.eye(nf), prolongation(p))
+        side_a: list[tuple[float, float, ComplexArray]] = []
+        side_b: list[tuple[float, float, ComplexArray]] = []
+        da, db = z.delta
+        for level in range(1, d + 1):
+            x_mat, _, b_co = hist[level]
+            yv = x_mat @ v
+            y = yv.reshape(nf, 6 * p, m)
+            s = 2.0 ** (-(level - 1))
+            oa = z.outer[0] if level == 1 else 2 * da * s
+            ob = z.outer[1] if level == 1 else 2 * db * s
+            side_a.append((oa, da * s, y[:, 0:p]))
+            side_b.append((db * s, ob, y[:, 5 * p : 6 * p]))
+            v = (pp @ v)[inner] - b_co @ yv[outer]
+        _, r_in, _ = hist[d + 1]
+        w = (r_in @ v).reshape(nf, 4 * p, m)
+        s = 2.0 ** (-d)
+        side_a += [(2 * da * s, da * s, w[:, 0:p]), (da * s, 0.0, w[:, p : 2 * p])]
+        side_b_inner = [(0.0, db * s, w[:, 2 * p : 3 * p]), (db * s, 2 * db * s, w[:, 3 * p : 4 * p])]
+        seg_a = int(mesh.seg_of_panel[z.panels[1]])
+        seg_b = int(mesh.seg_of_panel[z.panels[2]])
+        ta, tb = z.incoming.t_corner, z.outgoing.t_corner
+        pa = [(seg_a, ta - a, ta - b, val) for a, b, val in side_a]
+        pb = [(seg_b, tb + a, tb + b, val) for a, b, val in side_b_inner + side_b[::-1]]
+        replace[z.panels[0]] = pa[:1]
+        replace[z.panels[1]] = pa[1:]
+        replace[z.panels[2]] = pb[:-1]
+        replace[z.panels[3]] = pb[-1:]
+    seg, t0, t1, cont, vals = [], [], [], [], []
+    rho_p = np.stack([rho_c[f * n : (f + 1) * n] for f in range(nf)]).reshape(nf, mesh.n_panels, p, m)
+    # the coarse traces off the zones are the compressed ones (R = I there)
+    for i in range(mesh.n_panels):
+        pieces = replace.get(i, [(int(mesh.seg_of_panel[i]), float(mesh.t0[i]), float(mesh.t1[i]), rho_p[:, i])])
+        for sg, a, b, val in pieces:
+            seg.append(sg)
+            t0.append(a)
+            t1.append(b)
+            cont.append(int(mesh.contour_of_panel[i]))
+            vals.append(val)
+    corner_flags = np.zeros(len(seg), dtype=bool)
+    for z in sol.zones:  # the corner sits at the start of the first outgoing fine panel
+        corner_flags[sum(len(replace.get(i, [0])) for i in range(z.panels[2]))] = True
+    fine = PanelMesh(
+        p, mesh.segments, np.array(seg), np.array(t0), np.array(t1), np.array(cont),
+        mesh.body_of_contour, corner_flags,
+    )
+    rho_f = np.concatenate([np.concatenate([v_[f] for v_ in vals], axis=0) for f in range(nf)], axis=0)
+    u, psi = _traces(sol.kind, sol.k, sol.lam, rho_f, fine.n_nodes)
+    return fine, u, psi
