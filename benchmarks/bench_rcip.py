@@ -68,7 +68,7 @@ def dyadic_case(vertices, k, field, tol):
     elapsed = time.perf_counter() - t
     ff = fr.farfield
     recip = abs(ff[150, 0] - ff[40, 1]) / np.max(np.abs(ff))
-    return fr, ff, elapsed, recip, float(np.max(fr.widths["optical_residual"]))
+    return fr, ff, elapsed, recip, float(np.max(fr.cross_sections.optical_residual))
 
 
 def main() -> None:

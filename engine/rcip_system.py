@@ -61,7 +61,6 @@ traces
 
 from __future__ import annotations
 
-import math
 import time
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -72,8 +71,10 @@ import scipy.linalg as la
 from numpy.typing import NDArray
 
 from .corners import CornerSide, CornerZone, RcipError, compressed_inverse, levels_for, prolongation
+from .formulations import Dirichlet, Formulation, Neumann, Robin
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .operators import assemble_operators
+from .system import BoundarySystem
 
 __all__ = ["RcipSolution", "coarse_corner_mesh", "fields_of", "fine_traces", "rcip_solve", "system_for"]
 
@@ -84,16 +85,6 @@ KINDS = ("dirichlet", "neumann", "robin", "neumann-regularised", "robin-regulari
 #: Coupling of the regularised sound-hard system (any value with a non-zero
 #: imaginary part and ``c != -2`` keeps it uniquely solvable, see ``system_for``).
 REGULARISER_COUPLING = 1j
-
-
-def coupling_constants(k: complex) -> tuple[complex, complex]:
-    """``(alpha, beta) = (-j / |k|, -j |k|)``, the couplings of the dyadic solver's equations.
-
-    Kept here (same values as ``formulations``) so that this module does not
-    depend on how that one is organised.
-    """
-    kr = abs(k)
-    return (-1j / kr, -1j * kr)
 
 
 def fields_of(kind: str) -> int:
@@ -142,7 +133,7 @@ def coarse_corner_mesh(
         boundaries, p=p, tolerance=tolerance, max_panel_wavelengths=max_panel_wavelengths, corner_levels=0
     )
     segs = base.segments
-    seg_of, t0, t1 = base.seg_of_panel, base.t0, base.t1
+    seg_of = base.seg_of_panel
     new_seg: list[int] = []
     new_t0: list[float] = []
     new_t1: list[float] = []
@@ -155,39 +146,8 @@ def coarse_corner_mesh(
         for i in pan:
             if not order or order[-1] != seg_of[i]:
                 order.append(int(seg_of[i]))
-        # each segment's parameter range, panel lengths, and whether it starts at a corner
-        info: dict[int, dict[str, Any]] = {}
-        for s in order:
-            mine = pan[seg_of[pan] == s]
-            info[s] = {
-                "a": float(t0[mine].min()), "b": float(t1[mine].max()),
-                "corner": bool(base.corner_at_start[mine[np.argmin(t0[mine])]]),
-                "first": float(base.lengths[mine[np.argmin(t0[mine])]]),
-                "last": float(base.lengths[mine[np.argmax(t1[mine])]]),
-                "dt": float(np.min(t1[mine] - t0[mine])),
-            }
+        info, starts_corner, delta_start, delta_end = _segment_plan(base, segs, pan, order)
         nseg = len(order)
-        starts_corner = [info[s]["corner"] for s in order]
-        ends_corner = [starts_corner[(n + 1) % nseg] for n in range(nseg)]
-
-        h_corner: dict[int, float] = {}  # keyed by position of the outgoing segment
-        for n, s in enumerate(order):
-            if not starts_corner[n]:
-                continue
-            s_in = order[n - 1]
-            lim = []
-            for ss, nn in ((s_in, (n - 1) % nseg), (s, n)):
-                both = starts_corner[nn] and ends_corner[nn]
-                lim.append(_length(segs[ss], info[ss]["a"], info[ss]["b"]) / (4.0 if both else 2.0))
-            h_corner[n] = min(info[s]["first"], info[s_in]["last"], *lim)
-        delta_start: dict[int, float] = {}
-        delta_end: dict[int, float] = {}
-        for n, h in h_corner.items():
-            s, s_in = order[n], order[n - 1]
-            sp_out = float(np.hypot(*segs[s].derivative(np.array([info[s]["a"]]))[0]))
-            sp_in = float(np.hypot(*segs[s_in].derivative(np.array([info[s_in]["b"]]))[0]))
-            delta_start[n] = h / sp_out
-            delta_end[(n - 1) % nseg] = h / sp_in
         first_panel_of: dict[int, int] = {}
         last_two_of: dict[int, tuple[int, int]] = {}
         for n, s in enumerate(order):
@@ -204,9 +164,7 @@ def coarse_corner_mesh(
                 tail = [(b - 2 * d, b - d), (b - d, b)]
                 hi = b - 2 * d
             if hi - lo > 1e-9 * (b - a):
-                m = max(1, math.ceil((hi - lo) / info[s]["dt"] - 1e-9))
-                edges = np.linspace(lo, hi, m + 1)
-                pieces += list(zip(edges[:-1].tolist(), edges[1:].tolist()))
+                pieces += _between(info[s]["breaks"], lo, hi, lo - a, b - hi)
             elif pieces and tail:
                 # the two zones meet: close the tiny gap inside the outer panels
                 pieces[-1] = (pieces[-1][0], hi)
@@ -220,8 +178,7 @@ def coarse_corner_mesh(
                 new_cont.append(int(c))
                 new_corner.append(k_ == 0 and starts_corner[n])
             last_two_of[n] = (len(new_seg) - 2, len(new_seg) - 1)
-        for n in h_corner:
-            s, s_in = order[n], order[n - 1]
+        for n in delta_start:  # one zone per corner, keyed by its outgoing segment
             m_in = (n - 1) % nseg
             i_out = first_panel_of[n]
             i_oi, i_ii = last_two_of[m_in]
@@ -230,6 +187,69 @@ def coarse_corner_mesh(
         p, segs, np.array(new_seg), np.array(new_t0), np.array(new_t1), np.array(new_cont),
         base.body_of_contour, np.array(new_corner),
     )
+    mesh = _with_zones(mesh, zone_specs, segs)
+    return mesh, list(mesh.corner_zones)
+
+
+def _segment_plan(
+    base: PanelMesh, segs: Any, pan: NDArray[np.int64], order: list[int]
+) -> tuple[dict[int, dict[str, Any]], list[bool], dict[int, float], dict[int, float]]:
+    """Per segment of one contour: range, break points, corner at its start, zone panel lengths.
+
+    The zone panels' parameter lengths at the segment's start and end make
+    the panels touching each corner equally long on both sides.
+    """
+    seg_of, t0, t1 = base.seg_of_panel, base.t0, base.t1
+    # each segment's parameter range, panel lengths, and whether it starts at a corner
+    info: dict[int, dict[str, Any]] = {}
+    for s in order:
+        mine = pan[seg_of[pan] == s]
+        info[s] = {
+            "a": float(t0[mine].min()), "b": float(t1[mine].max()),
+            "corner": bool(base.corner_at_start[mine[np.argmin(t0[mine])]]),
+            "first": float(base.lengths[mine[np.argmin(t0[mine])]]),
+            "last": float(base.lengths[mine[np.argmax(t1[mine])]]),
+            "breaks": np.unique(np.concatenate([t0[mine], t1[mine]])),
+        }
+    nseg = len(order)
+    starts_corner = [info[s]["corner"] for s in order]
+    ends_corner = [starts_corner[(n + 1) % nseg] for n in range(nseg)]
+
+    h_corner: dict[int, float] = {}  # keyed by position of the outgoing segment
+    for n, s in enumerate(order):
+        if not starts_corner[n]:
+            continue
+        s_in = order[n - 1]
+        lim = []
+        for ss, nn in ((s_in, (n - 1) % nseg), (s, n)):
+            both = starts_corner[nn] and ends_corner[nn]
+            lim.append(_length(segs[ss], info[ss]["a"], info[ss]["b"]) / (4.0 if both else 2.0))
+        h_corner[n] = min(info[s]["first"], info[s_in]["last"], *lim)
+    delta_start: dict[int, float] = {}
+    delta_end: dict[int, float] = {}
+    for n, h in h_corner.items():
+        s, s_in = order[n], order[n - 1]
+        sp_out = float(np.hypot(*segs[s].derivative(np.array([info[s]["a"]]))[0]))
+        sp_in = float(np.hypot(*segs[s_in].derivative(np.array([info[s_in]["b"]]))[0]))
+        delta_start[n] = h / sp_out
+        delta_end[(n - 1) % nseg] = h / sp_in
+
+    return info, starts_corner, delta_start, delta_end
+
+
+def _between(breaks: FloatArray, lo: float, hi: float, zone_lo: float, zone_hi: float) -> list[tuple[float, float]]:
+    """Panels between the zones of a segment: the sizing mesh's own panels, without slivers.
+
+    Break points closer to a zone than half the zone's size are dropped, so
+    that no panel next to a zone is much shorter than it; ``regrade`` then
+    restores the neighbour ratio.
+    """
+    inner = [float(x) for x in breaks if lo + 0.5 * max(zone_lo, 0.0) < x < hi - 0.5 * max(zone_hi, 0.0)]
+    edges = [lo, *inner, hi]
+    return list(zip(edges[:-1], edges[1:]))
+
+
+def _with_zones(mesh: PanelMesh, zone_specs: list[tuple[int, int, int, int]], segs: Any) -> PanelMesh:
     zones: list[CornerZone] = []
     for i_oi, i_ii, i_io, i_oo in zone_specs:
         s_in, s_out = int(mesh.seg_of_panel[i_ii]), int(mesh.seg_of_panel[i_io])
@@ -246,7 +266,8 @@ def coarse_corner_mesh(
                 outer=(tc_in - float(mesh.t0[i_oi]), float(mesh.t1[i_oo]) - tc_out),
             )
         )
-    return mesh, zones
+    mesh.corner_zones = tuple(zones)
+    return mesh
 
 
 def _length(segment: Any, a: float, b: float) -> float:
@@ -255,6 +276,15 @@ def _length(segment: Any, a: float, b: float) -> float:
     t = a + (b - a) * 0.5 * (x + 1.0)
     d = segment.derivative(t)
     return float(0.5 * (b - a) * np.dot(w, np.hypot(d[:, 0], d[:, 1])))
+
+
+def _standard(kind: str, lam: complex) -> Formulation:
+    """The engine's own formulation of a kind, with the plain rows compression needs."""
+    if kind.startswith("dirichlet"):
+        return Dirichlet()
+    if kind.startswith("neumann"):
+        return Neumann(balanced=False)
+    return Robin(lam, balanced=False)
 
 
 def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
@@ -290,7 +320,7 @@ def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
     """
     if kind not in KINDS:
         raise RcipError(f"unknown boundary kind {kind!r}; expected one of {KINDS}")
-    alpha, beta = coupling_constants(k)
+    standard = _standard(kind, lam)
 
     def build(mesh: PanelMesh) -> ComplexArray:
         n = mesh.n_nodes
@@ -300,8 +330,6 @@ def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
             ops = assemble_operators(mesh, k, need_s=True, need_d=True, need_dp=robin, need_t=True)
             reg = assemble_operators(mesh, -1j * abs(k), need_s=True, need_d=False, need_dp=False, need_t=False)
             assert ops.D is not None and ops.T is not None and ops.S is not None and reg.S is not None
-            if not mesh.segments:
-                _drop_wrap_joint(mesh, k, ops.T)
             c = REGULARISER_COUPLING
             a11 = 0.5 * eye - ops.D
             a21 = -ops.T
@@ -313,49 +341,9 @@ def system_for(kind: str, k: float, lam: complex = 0.0) -> Any:
                 [a11, -c * abs(k) * reg.S],
                 [a21 / abs(k), eye.astype(complex)],
             ])
-        if kind == "dirichlet":
-            ops = assemble_operators(mesh, k, need_s=True, need_d=False, need_dp=True, need_t=False)
-            assert ops.S is not None and ops.Dp is not None
-            return 0.5 * eye + ops.Dp + beta * ops.S
-        ops = assemble_operators(mesh, k, need_s=True, need_d=True, need_dp=kind == "robin", need_t=True)
-        assert ops.D is not None and ops.T is not None and ops.S is not None
-        t_mat = ops.T
-        if not mesh.segments:
-            _drop_wrap_joint(mesh, k, t_mat)
-        if kind == "neumann":
-            return 0.5 * eye - ops.D - alpha * t_mat
-        assert ops.Dp is not None
-        return 0.5 * eye - ops.D + lam * ops.S + alpha * (lam * (0.5 * eye + ops.Dp) - t_mat)
+        return BoundarySystem(mesh, [standard], k).dense_matrix()
 
     return build
-
-
-def _drop_wrap_joint(mesh: PanelMesh, k: float, t_mat: ComplexArray) -> None:
-    """Make Maue's joint terms right for a local zone mesh, an open chain of panels.
-
-    ``PanelMesh.neighbours`` closes the chain, so the point-mass term at the
-    start of the first panel pairs that panel's start value with the last
-    panel's end value, a joint that does not exist. Each open end instead
-    keeps the half of its true joint term that involves the zone's own
-    density (the first panel's start value, the last panel's end value):
-    in the recursion those ends are interior joints of the next coarser
-    level, whose inner-inner block the compressed inverse stands for. The
-    other half involves the density outside the zone and belongs to ``K°``.
-    """
-    from .kernels import kernel_matrices
-    from .quadrature import gauss_legendre, interpolation_matrix
-
-    p = mesh.p
-    x, _ = gauss_legendre(p)
-    at_end = interpolation_matrix(x, np.array([1.0]))[0]
-    last = mesh.n_panels - 1
-    joints = np.vstack([mesh.ends[0:1, 0, :], mesh.ends[last : last + 1, 1, :]])
-    _, _, _, g = kernel_matrices(
-        mesh.nodes, mesh.normals, joints, np.zeros_like(joints), k,
-        want_s=False, want_d=False, want_dp=False, want_dt=True,
-    )
-    # undo the wrap (-g_start at_end on the last panel), add the end joint's own half
-    t_mat[:, last * p : (last + 1) * p] += (g[:, 0:1] - g[:, 1:2]) * at_end[None, :]
 
 
 def rcip_solve(
@@ -445,15 +433,12 @@ def rcip_solve(
         system[:, idx] = system[:, idx] @ r_mat
     system[np.diag_indices(nf * n)] += 1.0
     u_inc, dn_inc = u_inc_fn(mesh.nodes, mesh.normals)
-    alpha, beta = coupling_constants(k)
-    if kind == "dirichlet":
-        rhs = (dn_inc + beta * u_inc) / abs(k)
-    elif kind == "neumann":
-        rhs = u_inc + alpha * dn_inc
-    elif kind.endswith("-regularised"):
+    if kind.endswith("-regularised"):
         rhs = np.vstack([u_inc, dn_inc / abs(k)])
     else:
-        rhs = u_inc + alpha * dn_inc
+        rhs = BoundarySystem(mesh, [_standard(kind, lam)] * int(mesh.body_of_contour.size), k).right_hand_sides(
+            u_inc, dn_inc
+        )
     lu = la.lu_factor(system, overwrite_a=True, check_finite=False)
     rho_t = la.lu_solve(lu, rhs, check_finite=False)
     rho = rho_t.copy()
