@@ -8,7 +8,7 @@ tolerances 1e-8 and 1e-12; the I-beam-like polygon (12 corners, 8 convex,
 figures are the reciprocity defect and the optical-theorem residual (exact
 identities), and the far-field change between the two tolerances (or two
 coarse meshes). ``--dyadic`` also runs today's solver (dyadic refinement
-toward each corner, ``solve_scene``) at 1e-8 for comparison.
+toward each corner, ``solve_problem`` with ``corners = "graded"``) at 1e-8 for comparison.
 """
 
 from __future__ import annotations
@@ -55,16 +55,16 @@ def rcip_case(vertices, k, kind, tol, mpw=1.0):
 
 
 def dyadic_case(vertices, k, field, tol):
-    from sectionwave.engine import parse_case, solve_scene
+    from sectionwave.engine import parse_case, solve_problem
 
     from tests.reference import C0, case
 
     shape = {"kind": "polygon", "points_m": vertices.tolist()}
     doc = case(field, k * C0 / (2 * math.pi), [{"name": "b", "shape": shape, "boundary": "pec"}],
-               angles={"start": 0, "stop": 359.5, "count": 720}, solver={"tolerance": tol})
+               angles={"start": 0, "stop": 359.5, "count": 720}, solver={"tolerance": tol, "corners": "graded"})
     doc["incident"] = [{"kind": "plane", "from_deg": FROM.tolist()}]
     t = time.perf_counter()
-    fr = solve_scene(parse_case(doc)).frequencies[0]
+    fr = solve_problem(parse_case(doc).problem).frequencies[0]
     elapsed = time.perf_counter() - t
     ff = fr.farfield
     recip = abs(ff[150, 0] - ff[40, 1]) / np.max(np.abs(ff))

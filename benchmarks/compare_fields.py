@@ -19,7 +19,7 @@ import sys
 
 import numpy as np
 import tomllib
-from sectionwave.engine import parse_case, solve_scene
+from sectionwave.engine import parse_case, solve_problem
 
 CASE = """
 title = "compare"
@@ -44,10 +44,10 @@ count = [61, 61]
 """
 out = {}
 for field in ("tm", "te"):
-    scene = parse_case(tomllib.loads(CASE.format(field=field)))
-    res = solve_scene(scene).frequencies[0]
+    case = parse_case(tomllib.loads(CASE.format(field=field)))
+    res = solve_problem(case.problem).frequencies[0]
     out[f"{field}_far"] = res.farfield
-    out[f"{field}_near"] = res.near["grid"]["scattered"]
+    out[f"{field}_near"] = res.near_field.grid.scattered
 if len(sys.argv) != 3 or sys.argv[1] not in ("save", "compare"):
     raise SystemExit("usage: compare_fields.py save|compare FILE.npz")
 mode, path = sys.argv[1], sys.argv[2]

@@ -45,7 +45,8 @@ def _imports(module: str, path: Path) -> set[str]:
                 prefix = ".".join(anchor + ([node.module] if node.module else []))
             else:
                 prefix = node.module or ""
-            found.add(prefix)
+            if node.module:  # "from . import x" imports the submodule x, not the package
+                found.add(prefix)
             found.update(f"{prefix}.{alias.name}" for alias in node.names)
     return {name for name in found if name.startswith("sectionwave")}
 

@@ -158,18 +158,18 @@ def test_a_new_process_loads_the_compiled_loops_from_the_cache():
     # so a second process finds every loop in numba's disk cache.
     code = textwrap.dedent("""
         import numpy as np
-        from sectionwave.engine import parse_case, solve_scene
-        from sectionwave.engine import _kernel_loops, _nearfield_loops, bessel, operators
-        scene = parse_case({
+        from sectionwave.engine import parse_case, solve_problem
+        from sectionwave.engine import _kernel_loops, _nearfield_loops, bessel, operators, system
+        case = parse_case({
             "wave": {"field": "te", "frequency_hz": 3e8},
             "body": [{"name": "c", "shape": {"kind": "circle", "radius_m": 0.2}, "boundary": "pec"}],
             "incident": [{"kind": "plane", "from_deg": [0]}],
             "solver": {"tolerance": 1e-6},
             "near_field": {"x_m": [-0.25, 0.25], "y_m": [-0.25, 0.25], "count": [41, 41]},
         })
-        solve_scene(scene)
+        solve_problem(case.problem)
         loops = [_kernel_loops.matrices, _nearfield_loops.far_sum, _nearfield_loops.panel_kernels,
-                 bessel._j0j1_loop, operators._normal_term()]
+                 bessel._j0j1_loop, operators._normal_term(), system._combine()]
         print(sum(len(d.stats.cache_misses) for d in loops), min(len(d.stats.cache_hits) for d in loops))
     """)
     env = dict(os.environ)
