@@ -183,11 +183,19 @@ def test_near_field_inside_and_outside(field, tmp_path):
     assert np.max(np.abs(got - ref)) < 1e-6
 
 
-def test_dielectric_square_tm_identities_and_convergence():
-    # Corners between two media: reciprocity, energy, and tolerance 1e-6 -> 1e-8 (TM, mu_r = 1).
+@pytest.mark.parametrize("field", ["tm", "te"])
+@pytest.mark.parametrize("coated", [False, True], ids=["dielectric", "coated"])
+def test_square_with_corners_identities_and_convergence(field, coated):
+    # Corners between two media (compressed by RCIP): reciprocity, energy conservation
+    # (lossless, so C_ext = C_s) and tolerance 1e-6 -> 1e-8, for a dielectric square and
+    # for a PEC square under a dielectric square coating.
+    bodies = [{"name": "b", "shape": SQUARE, "boundary": "penetrable", "eps_r": 3.0}]
+    if coated:
+        bodies.append({"name": "core", "shape": {"kind": "rectangle", "width_m": 0.6, "height_m": 0.6},
+                       "boundary": "pec"})
+
     def solve(tol):
-        doc = case("tm", 5 * C0 / (2 * math.pi), [{"name": "b", "shape": SQUARE, "boundary": "penetrable",
-                                                    "eps_r": 3.0}],
+        doc = case(field, 5 * C0 / (2 * math.pi), bodies,
                    angles={"start": 0, "stop": 359.5, "count": 720}, solver={"tolerance": tol})
         doc["incident"] = [{"kind": "plane", "from_deg": [20.0, 75.0]}]
         return solve_problem(parse_case(doc).problem).frequencies[0]
@@ -198,6 +206,7 @@ def test_dielectric_square_tm_identities_and_convergence():
     assert abs(ff[150, 0] - ff[40, 1]) / scale < 1e-8
     assert np.max(fine.cross_sections.optical_residual) < 1e-8
     assert np.max(np.abs(coarse.farfield - ff)) / scale < 1e-6
+    assert fine.unknowns <= (1024 if coated else 640)  # corners cost their coarse panels only
 
 
 def test_penetrable_case_errors():
