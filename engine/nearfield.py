@@ -49,7 +49,7 @@ from numpy.typing import ArrayLike, NDArray
 from .kernels import kernel_matrices
 from .mesh import PanelMesh
 from .operators import near_corrections, near_pairs
-from .quadrature import _arg_change, gauss_legendre, interpolation_matrix, near_weights
+from .quadrature import NEAR_RADIUS, _arg_change, gauss_legendre, interpolation_matrix, near_weights
 
 __all__ = [
     "UPSAMPLE_RATIO",
@@ -194,7 +194,7 @@ def _children(mesh: PanelMesh, panel: int, n_child: int) -> list[dict[str, Any]]
             "ends": (complex(*ends[0]), complex(*ends[1])),
             "interp": interpolation_matrix(x, xp),
             "center": complex(*(0.5 * (ends[0] + ends[1]))),
-            "reach": 1.8 * max(0.5 * float(np.hypot(*(ends[1] - ends[0]))),
+            "reach": NEAR_RADIUS * max(0.5 * float(np.hypot(*(ends[1] - ends[0]))),
                                0.5 * float(np.sum(wgl * speed))),
         })
     return out
