@@ -256,9 +256,12 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
             u, dudn = u[ext_nodes], dudn[ext_nodes]
         ff = far_field(ext_mesh, k, u, dudn, angles)
         widths = None
+        exact = True
         if plane:
             widths = cross_sections(ext_mesh, k, u[:, plane], dudn[:, plane], plane_from)
-        return SolvePass(solution, ff, widths, time.perf_counter() - t_ff)
+            absorbs = np.any(np.abs(widths.surface_absorption_m) > 1e-6 * np.abs(widths.extinction_width_m))
+            exact = not (current.corner_zones and absorbs)
+        return SolvePass(solution, ff, widths, time.perf_counter() - t_ff, exact)
 
     adaptive = refine_until_accurate(
         mesh, evaluate,
@@ -279,6 +282,12 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         mono[plane] = far_field_each(ext_mesh, k, ue[:, plane], de[:, plane], plane_from)
     timings["far_field_s"] += time.perf_counter() - t_post
     notes += adaptive.notes
+    if not adaptive.last.residual_is_bound:
+        notes.append(
+            f"at {freq:.6g} Hz the surface absorption of the absorbing bodies is computed from the "
+            "weighted values next to compressed corners, so the optical-theorem residual is approximate "
+            "and does not bound the estimate"
+        )
     condition = solution.report.condition_estimate
     if condition is not None and condition > CONDITION_WARN:
         msg = f"at {freq:.6g} Hz the system condition number is {condition:.2e}"

@@ -10,6 +10,7 @@ tightened guards against an under-resolved corner that keeps both identities.
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
 import pytest
@@ -82,3 +83,44 @@ def test_memory_limit_refines_corners_less_and_says_so(monkeypatch):
     # the answer is still close: reciprocity holds to the looser corner tolerance
     ff = fr.farfield
     assert abs(ff[150, 0] - ff[40, 1]) / np.max(np.abs(ff)) < 1e-4
+
+
+@pytest.mark.parametrize("field,kind,n_side", [("tm", "dirichlet", 500), ("te", "neumann", 400)])
+def test_compressed_corners_match_kress_reference(field, kind, n_side):
+    # The run's own path (compressed corners, adaptive refinement) against Kress's
+    # graded-mesh Nystrom method (tests/reference_kress.py; R. Kress, Numer. Math. 58, 1990),
+    # which shares no code with the engine, on the L-shape (one re-entrant corner).
+    from tests.reference_kress import solve_polygon
+
+    k = 5.0
+    angles = np.arange(0.0, 360.0, 7.5)
+    vertices = np.array(L_SHAPE["points_m"], dtype=float)
+    doc = case(field, k * C0 / (2 * math.pi), [{"name": "b", "shape": L_SHAPE, "boundary": "pec"}],
+               from_deg=20.0, angles=angles.tolist(), solver={"tolerance": 1e-12})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # the estimate may stall just above 1e-12 (rounding)
+        fr = solve_problem(parse_case(doc).problem).frequencies[0]
+    ref = solve_polygon(vertices, k, kind, [20.0], angles, n_side=n_side, q=10)
+    assert np.max(np.abs(fr.farfield - ref)) / np.max(np.abs(ref)) < 1e-10
+    assert fr.unknowns < 1000  # graded corners need about 5000 here
+
+
+@pytest.mark.parametrize("field", ["tm", "te"])
+def test_impedance_square_with_compressed_corners(field):
+    # Reciprocity and passivity (C_ext > C_s) of an absorbing square (Colton & Kress, from
+    # memory), and agreement under a finer coarse mesh.
+    def solve(mpw):
+        doc = case(field, 5 * C0 / (2 * math.pi),
+                   [{"name": "b", "shape": SQUARE, "boundary": "impedance", "impedance": [0.6, 0.3]}],
+                   angles={"start": 0, "stop": 359.5, "count": 720},
+                   solver={"tolerance": 1e-8, "max_panel_wavelengths": mpw})
+        doc["incident"] = [{"kind": "plane", "from_deg": [20.0, 75.0]}]
+        return solve_problem(parse_case(doc).problem).frequencies[0]
+
+    a, b = solve(0.5), solve(0.25)
+    ff = b.farfield
+    scale = np.max(np.abs(ff))
+    assert abs(ff[150, 0] - ff[40, 1]) / scale < 1e-8
+    w = b.cross_sections
+    assert np.all(w.extinction_width_m > w.scattering_width_m)
+    assert np.max(np.abs(a.farfield - ff)) / scale < 1e-8
