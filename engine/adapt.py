@@ -139,6 +139,11 @@ def refine_until_accurate(
     change = None
     refinements = 0
     history: list[float] = []
+
+    def note(message: str) -> None:
+        warnings.warn(message.strip(), AccuracyWarning, stacklevel=5)
+        notes.append(message.strip())
+
     while True:
         current = evaluate(mesh)
         for key, val in current.solution.report.timings_s.items():
@@ -159,33 +164,27 @@ def refine_until_accurate(
         if len(history) > STALLED_AFTER and all(
             history[-i] > 0.5 * history[-i - 1] for i in range(1, STALLED_AFTER + 1)
         ):
-            msg = (
+            note(
                 f"{where} refinement stopped after {refinements} refinements: the estimate "
                 f"({estimated:.2e}) no longer falls, which rounding or the conditioning of the system sets"
             )
-            warnings.warn(msg.strip(), AccuracyWarning, stacklevel=4)
-            notes.append(msg.strip())
             break
         bad = mark_panels(est)
         refined = regrade(mesh.split(sorted(bad.tolist())))
         if not fits(refined):
-            msg = (
+            note(
                 f"{where} refinement stopped at {current.solution.report.unknowns} unknowns: "
                 f"the next mesh ({refined.n_nodes} nodes) would not fit in memory"
             )
-            warnings.warn(msg.strip(), AccuracyWarning, stacklevel=4)
-            notes.append(msg.strip())
             break
         previous_ff = ff
         refinements += 1
         log.info("refining %d of %d panels (estimate %.2e)", bad.size, mesh.n_panels, estimated)
         mesh = refined
     if estimated > tolerance:
-        msg = (
+        note(
             f"{where} the estimated error {estimated:.2e} is above the tolerance "
             f"{tolerance:.1e} after {refinements} refinements"
             + ("; raise the refinement budget (max_refinements)" if refinements >= max_refinements else "")
         )
-        warnings.warn(msg.strip(), AccuracyWarning, stacklevel=4)
-        notes.append(msg.strip())
     return AdaptiveResult(mesh, current, estimated, change, refinements, timings, notes)
