@@ -134,6 +134,9 @@ def coarse_corner_mesh(
     )
     segs = base.segments
     seg_of = base.seg_of_panel
+    from scipy.spatial import cKDTree
+
+    tree = (cKDTree(base.nodes), np.repeat(seg_of, base.p))
     new_seg: list[int] = []
     new_t0: list[float] = []
     new_t1: list[float] = []
@@ -146,7 +149,7 @@ def coarse_corner_mesh(
         for i in pan:
             if not order or order[-1] != seg_of[i]:
                 order.append(int(seg_of[i]))
-        info, starts_corner, delta_start, delta_end = _segment_plan(base, segs, pan, order)
+        info, starts_corner, delta_start, delta_end = _segment_plan(base, segs, pan, order, tree)
         nseg = len(order)
         first_panel_of: dict[int, int] = {}
         last_two_of: dict[int, tuple[int, int]] = {}
@@ -192,7 +195,7 @@ def coarse_corner_mesh(
 
 
 def _segment_plan(
-    base: PanelMesh, segs: Any, pan: NDArray[np.int64], order: list[int]
+    base: PanelMesh, segs: Any, pan: NDArray[np.int64], order: list[int], tree: Any
 ) -> tuple[dict[int, dict[str, Any]], list[bool], dict[int, float], dict[int, float]]:
     """Per segment of one contour: range, break points, corner at its start, zone panel lengths.
 
@@ -224,6 +227,10 @@ def _segment_plan(
         for ss, nn in ((s_in, (n - 1) % nseg), (s, n)):
             both = starts_corner[nn] and ends_corner[nn]
             lim.append(_length(segs[ss], info[ss]["a"], info[ss]["b"]) / (4.0 if both else 2.0))
+        # other boundary (the far face of a thin rib, a neighbouring body) must lie well
+        # outside the zone, whose far part K deg is taken to be smooth on the zone's scale
+        corner = segs[s].points(np.array([info[s]["a"]]))[0]
+        lim.append(0.25 * _clearance(tree, corner, {s, s_in}))
         h_corner[n] = min(info[s]["first"], info[s_in]["last"], *lim)
     delta_start: dict[int, float] = {}
     delta_end: dict[int, float] = {}
@@ -235,6 +242,20 @@ def _segment_plan(
         delta_end[(n - 1) % nseg] = h / sp_in
 
     return info, starts_corner, delta_start, delta_end
+
+
+def _clearance(tree: Any, point: FloatArray, own: set[int]) -> float:
+    """Distance from ``point`` to the nearest node of the sizing mesh on other segments."""
+    kd, seg_of_node = tree
+    for count in (64, 512, 4096, kd.n):
+        dist, idx = kd.query(point, k=min(count, kd.n))
+        dist, idx = np.atleast_1d(dist), np.atleast_1d(idx)
+        other = np.array([int(seg_of_node[i]) not in own for i in idx])
+        if other.any():
+            return float(dist[other][0])
+        if count >= kd.n:
+            break
+    return float("inf")
 
 
 def _between(breaks: FloatArray, lo: float, hi: float, zone_lo: float, zone_hi: float) -> list[tuple[float, float]]:
