@@ -10,8 +10,13 @@ the exact affine map of the reference, nested to any depth.
 
 Entities that are not outline (TEXT, MTEXT, DIMENSION, POINT, ...) are
 counted in :attr:`Drawing.skipped` and never guessed at. Entities that are
-not flat in the drawing plane (3DFACE, MESH, 3D polylines, an arc whose
-extrusion is tilted) are refused, with their handle in the message.
+not flat in the drawing plane (3DFACE, MESH, 3D polylines whose vertices
+do not share one height, an arc whose extrusion is tilted) are refused, with
+their handle in the message. A SPLINE whose knots repeat ``degree`` times
+(CAD programs' NURBS circles, arcs and joined Bezier pieces) is cut into one
+segment per piece at those joints. An entity that ezdxf cannot read at all
+(subclass markers left out by an old writer) is dropped, named in the notes,
+and the rest of the file is read.
 
 Only model space is read.
 """
@@ -32,7 +37,7 @@ import numpy as np
 
 from .curves import BSpline, EllipticalArc, Line, Segment
 from .drawing import Drawing, LayerInfo, Piece, select_pieces, units_to_metres
-from .errors import DrawingError
+from .errors import DrawingError, GeometryError
 
 __all__ = [
     "INSUNITS_M",
@@ -218,14 +223,150 @@ def _load(path: Path, notes: list[str]) -> Any:
                 except DXFError:
                     doc = None
             if doc is None:
-                doc, auditor = recover.readfile(path)
+                try:
+                    doc, auditor = recover.readfile(path)
+                except _LOAD_ERRORS as exc:
+                    doc, auditor = _load_without_bad_entities(path, data, exc, notes)
     except DrawingError:
         raise
-    except (DXFError, OSError, UnicodeDecodeError, ValueError, IndexError, KeyError) as exc:
+    except _LOAD_ERRORS as exc:
         raise DrawingError(f"{path}: cannot read the DXF file ({exc}); save it again") from exc
     for entry in list(auditor.fixes) + list(auditor.errors):
         notes.append(f"repaired: {entry.message}")
     return doc
+
+
+#: What ezdxf may raise on a damaged file. Its own ``DXFError`` derives from
+#: ``Exception`` only, and a hostile file reaches ``IndexError``, ``KeyError``,
+#: ``TypeError``... deep inside it, so every ordinary exception is caught
+#: while loading and turned into a ``DrawingError`` naming the file.
+_LOAD_ERRORS: tuple[type[Exception], ...] = (Exception,)
+
+#: Most unreadable entities dropped from one file before the file is refused.
+MAX_DROPPED_ENTITIES = 20
+
+_ENTITY_IN_MESSAGE_RE = re.compile(r"\b([A-Z0-9_]+)\(#([0-9A-Fa-f]*)\)")
+
+#: Entities that belong to the entity before them (a POLYLINE's vertices, an INSERT's attributes).
+_FOLLOWERS = frozenset({"VERTEX", "SEQEND", "ATTRIB"})
+
+
+def _entity_chunks(lines: list[bytes]) -> list[tuple[int, int, str, str]]:
+    """``(first line, end line, type, handle)`` of each entity in ENTITIES and BLOCKS.
+
+    ``lines`` are the file's lines; a DXF tag is a pair of lines (group
+    code, value). Followers (VERTEX, SEQEND, ATTRIB) stay with their owner.
+    """
+    chunks: list[tuple[int, int, str, str]] = []
+    in_section = False
+    start = -1
+    typ = handle = ""
+    n = len(lines) - 1
+    i = 0
+
+    def close(end: int) -> None:
+        if start >= 0:
+            chunks.append((start, end, typ, handle))
+
+    while i < n:
+        code, value = lines[i].strip(), lines[i + 1].strip()
+        if code == b"0":
+            name = value.decode("latin-1").upper()
+            if name == "SECTION" and i + 3 <= n:
+                sec = lines[i + 3].strip().decode("latin-1").upper()
+                in_section = sec in ("ENTITIES", "BLOCKS")
+                close(i)
+                start = -1
+            elif name in ("ENDSEC", "EOF", "BLOCK", "ENDBLK") or not in_section:
+                close(i)
+                start = -1
+            elif name not in _FOLLOWERS or start < 0:
+                close(i)
+                start, typ, handle = i, name, ""
+        elif code == b"5" and start >= 0 and not handle:
+            handle = value.decode("latin-1").upper()
+        i += 2
+    close(n + 1)
+    return chunks
+
+
+def _without(lines: list[bytes], drop: list[tuple[int, int, str, str]]) -> bytes:
+    keep: list[bytes] = []
+    pos = 0
+    for a, b, _, _ in sorted(drop):
+        keep.extend(lines[pos:a])
+        pos = b
+    keep.extend(lines[pos:])
+    return b"\n".join(keep)
+
+
+def _load_without_bad_entities(
+    path: Path, data: bytes, first: BaseException, notes: list[str]
+) -> tuple[Any, Any]:
+    """Read a file that ezdxf refuses because of a few bad entities, dropping them.
+
+    Old or home-made writers leave out markers (subclass markers ``100``,
+    counts) that ezdxf needs for some entity types; one such entity makes
+    the whole file unreadable. The entity named in ezdxf's message (type
+    and handle) is dropped; when the message names none, the culprit is
+    found by bisection over the entities (a few reads of the file). Each
+    dropped entity is named in ``notes``. At most
+    :data:`MAX_DROPPED_ENTITIES` are dropped, then the first error stands.
+    """
+    import io
+
+    from ezdxf import recover
+
+    lines = data.split(b"\n")
+    chunks = _entity_chunks(lines)
+    dropped: list[tuple[int, int, str, str]] = []
+    exc: BaseException = first
+
+    def attempt(subset_drop: list[tuple[int, int, str, str]]) -> tuple[Any, Any] | None:
+        try:
+            with _captured_ezdxf_log([]):
+                return recover.read(io.BytesIO(_without(lines, subset_drop)))
+        except _LOAD_ERRORS:
+            return None
+
+    for _ in range(MAX_DROPPED_ENTITIES):
+        live = [c for c in chunks if c not in dropped]
+        culprit: tuple[int, int, str, str] | None = None
+        mt = _ENTITY_IN_MESSAGE_RE.search(str(exc))
+        if mt is not None:
+            typ, handle = mt.group(1).upper(), mt.group(2).upper()
+            named = [c for c in live if c[2] == typ and (not handle or c[3] == handle)]
+            if len(named) == 1:
+                culprit = named[0]
+        if culprit is None and live:
+            # smallest prefix of the entities that still fails: its last one is bad
+            lo, hi = 0, len(live)
+            if attempt(dropped + live) is None:
+                break  # the trouble is not in an entity
+            while hi - lo > 1:
+                mid = (lo + hi) // 2
+                if attempt(dropped + live[mid:]) is None:
+                    hi = mid
+                else:
+                    lo = mid
+            culprit = live[lo]
+        if culprit is None:
+            break
+        dropped.append(culprit)
+        reason = str(exc) or type(exc).__name__
+        notes.append(
+            f"dropped unreadable entity {culprit[2]}"
+            f"{' #' + culprit[3] if culprit[3] else ''} at line {culprit[0] + 1} ({reason}); "
+            f"the rest of the file was read: redraw or re-save that entity"
+        )
+        try:
+            with _captured_ezdxf_log(notes):
+                return recover.read(io.BytesIO(_without(lines, dropped)))  # type: ignore[no-any-return]
+        except _LOAD_ERRORS as again:
+            exc = again
+    raise DrawingError(
+        f"{path}: cannot read the DXF file ({first}); save it again"
+    ) from first
 
 
 # --------------------------------------------------------------------------- geometry
@@ -383,9 +524,21 @@ def _ellipse(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
 
 def _polyline(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
     typ = e.dxftype()
-    if typ == "POLYLINE" and e.get_mode() != "AcDb2dPolyline":
-        raise r.refuse_3d(e, f"is a {e.get_mode()[4:]}")
-    if typ == "LWPOLYLINE" or typ == "POLYLINE":
+    mode = e.get_mode() if typ == "POLYLINE" else ""
+    if mode == "AcDb3dPolyline":
+        # Many writers flag every polyline 3D; one lying at a single height is
+        # a flat outline (its virtual LINEs are in world coordinates).
+        zs = [float(v.dxf.location.z) for v in e.vertices]
+        xy = [(float(v.dxf.location.x), float(v.dxf.location.y)) for v in e.vertices]
+        size = float(np.ptp(np.array(xy), axis=0).max()) if xy else 0.0
+        if zs and max(zs) - min(zs) > FLAT_TOL * max(1.0, size, max(map(abs, zs))):
+            raise r.refuse_3d(
+                e, f"is a true 3D polyline (vertex z from {min(zs):g} to {max(zs):g}; a "
+                f"3D polyline is read only when all its vertices share one z)"
+            )
+    elif typ == "POLYLINE" and mode != "AcDb2dPolyline":
+        raise r.refuse_3d(e, f"is a {mode[4:]}")
+    else:
         r.ocs_matrix(e)  # refuse tilted planes before expanding
     here = _describe(e)
     if parent:
@@ -420,8 +573,19 @@ def _spline(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
             f"ezdxf, which may differ slightly from the CAD program's curve"
         )
     weights = np.asarray(tool.weights(), dtype=float) if tool.is_rational else None
-    seg = BSpline(np.asarray(tool.knots(), dtype=float), ctrl[:, :2], int(tool.degree), weights)
-    r.emit(sink, e, seg, parent)
+    try:
+        seg = BSpline(np.asarray(tool.knots(), dtype=float), ctrl[:, :2], int(tool.degree),
+                      weights)
+    except GeometryError as exc:
+        raise DrawingError(
+            f"{r.path}: {_describe(e)} on layer {e.dxf.layer!r} is not a valid spline "
+            f"({exc}); redraw it"
+        ) from exc
+    # Knots repeated `degree` times (NURBS circles and arcs, joined Bezier
+    # pieces) are C0 joints, possibly corners: one segment per piece, so the
+    # contour and the mesher see each joint.
+    for piece in seg.split_at_joints():
+        r.emit(sink, e, piece, parent)
     sink.counts["SPLINE"] += 1
 
 
@@ -498,7 +662,15 @@ def _hatch_path(r: _Reader, e: Any, path: Any) -> Iterator[Segment]:
                 )
             ctrl = np.array([(p[0], p[1]) for p in edge.control_points], dtype=float)
             w = np.asarray(edge.weights, dtype=float) if len(edge.weights) else None
-            yield BSpline(np.asarray(edge.knot_values, dtype=float), ctrl, int(edge.degree), w)
+            try:
+                spl = BSpline(np.asarray(edge.knot_values, dtype=float), ctrl,
+                              int(edge.degree), w)
+            except GeometryError as exc:
+                raise DrawingError(
+                    f"{r.path}: {_describe(e)} has an invalid spline boundary edge ({exc}); "
+                    f"redraw the boundary or turn off hatch_boundaries"
+                ) from exc
+            yield from spl.split_at_joints()
         else:
             raise DrawingError(f"{r.path}: {_describe(e)} has an unknown boundary edge {ek}")
 
