@@ -427,7 +427,8 @@ class BSpline(Segment):
         u = self._u(t)
         parts = self._parts_list  # type: ignore[attr-defined]
         # piece k covers [break_{k-1}, break_k); a joint belongs to the piece it starts
-        which = np.searchsorted(self._breaks, u, side="right")  # type: ignore[attr-defined]
+        breaks: FloatArray = self._breaks  # type: ignore[attr-defined]
+        which = np.searchsorted(breaks, u, side="right")
         num_out = [np.zeros((u.size, 2)) for _ in range(order + 1)]
         den_out = [np.ones((u.size, 1)) if d == 0 else np.zeros((u.size, 1))
                    for d in range(order + 1)]
@@ -482,7 +483,8 @@ class BSpline(Segment):
     def joints(self) -> FloatArray:
         """Curve parameters ``t`` of the C0 joints (interior knots of multiplicity >= degree)."""
         lo, hi = self._span  # type: ignore[attr-defined]
-        return (np.asarray(self._breaks, dtype=float) - lo) / (hi - lo)  # type: ignore[attr-defined]
+        breaks: FloatArray = self._breaks  # type: ignore[attr-defined]
+        return (breaks - lo) / (hi - lo)
 
     def split_at_joints(self) -> tuple[BSpline, ...]:
         """The curve as separate B-splines, cut at every C0 joint.

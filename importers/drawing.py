@@ -172,6 +172,10 @@ class Drawing:
         points, hidden elements, pieces on switched-off layers...).
     notes
         What the loader repaired or noticed (audit notes), one line each.
+    left_out
+        Shapes that were read but are not outline by the importer's rules
+        (an SVG page background, unfilled shapes beside filled ones), one
+        line each naming them and the option that would keep them.
     """
 
     pieces: list[Piece] = field(default_factory=list)
@@ -183,6 +187,7 @@ class Drawing:
     entity_counts: Counter[str] = field(default_factory=Counter)
     skipped: Counter[str] = field(default_factory=Counter)
     notes: list[str] = field(default_factory=list)
+    left_out: list[str] = field(default_factory=list)
 
     @property
     def name(self) -> str:
