@@ -36,11 +36,20 @@ from typing import Any
 import numpy as np
 
 from .curves import BSpline, EllipticalArc, Line, Segment
-from .drawing import Drawing, LayerInfo, Piece, select_pieces, units_to_metres
+from .drawing import (
+    Drawing,
+    LayerInfo,
+    Piece,
+    check_coordinates,
+    select_pieces,
+    units_to_metres,
+)
 from .errors import DrawingError, GeometryError
 
 __all__ = [
     "INSUNITS_M",
+    "MAX_DXF_BYTES",
+    "MAX_DXF_PIECES",
     "is_dxf_file",
     "read_dxf",
 ]
@@ -174,13 +183,28 @@ def _captured_ezdxf_log(notes: list[str]) -> Iterator[None]:
 FAST_READ_BYTES = 4 << 20
 
 
-def _load(path: Path, notes: list[str]) -> Any:
+#: Largest DXF file read (bytes); larger files are refused before reading.
+MAX_DXF_BYTES = 128 * 1024 * 1024
+
+#: Most outline entities a drawing may expand to through (nested) block references.
+MAX_DXF_PIECES = 200_000
+
+
+def _load(path: Path, notes: list[str], max_bytes: int = MAX_DXF_BYTES) -> Any:
     import ezdxf
     from ezdxf import recover
     from ezdxf.lldxf.const import DXFError
 
     if not path.is_file():
         raise DrawingError(f"{path}: no such file")
+    size = path.stat().st_size
+    if size > max_bytes:
+        raise DrawingError(
+            f"{path}: the file is {size} bytes, over the {max_bytes}-byte cap for DXF; "
+            f"raise max_bytes if the drawing is genuine"
+        )
+    if size == 0:
+        raise DrawingError(f"{path}: the file is empty (0 bytes); save the drawing again")
     with open(path, "rb") as fh:
         data = fh.read()
     head = data[:4096]
@@ -194,9 +218,13 @@ def _load(path: Path, notes: list[str]) -> Any:
                 return doc
             if not _is_ascii_head(head):
                 shown = head[:24].decode("latin-1", errors="replace")
+                looks = head.lstrip(b"\xef\xbb\xbf \t\r\n")
+                hint = ("; it looks like SVG: rename it to .svg"
+                        if looks.startswith(b"<") and b"<svg" in head else
+                        "; check the file or give the right format")
                 raise DrawingError(
                     f"{path}: not a DXF file (it starts with {shown!r}, a DXF file starts "
-                    f"with '0' / 'SECTION'); check the file or give the right format"
+                    f"with '0' / 'SECTION'){hint}"
                 )
             if not _EOF_RE.search(data):
                 tail = [ln.strip() for ln in data[-256:].decode("latin-1").splitlines()]
@@ -723,6 +751,53 @@ _HANDLERS: dict[str, Callable[[_Reader, Any, _Sink, str], None]] = {
 }
 
 
+def _expanded_count(doc: Any, path: Path) -> float:
+    """How many entities the model space holds once every block reference is expanded.
+
+    Counted on the block definitions, without building anything, so a
+    reference bomb (blocks inserting blocks many times over) is refused at
+    once. Self-insertion counts as nothing here; the reader reports it.
+    """
+    memo: dict[str, float] = {}
+    busy: set[str] = set()
+
+    def count(entities: Any) -> float:
+        total = 0.0
+        for e in entities:
+            if e.dxftype() != "INSERT":
+                total += 1.0
+                continue
+            name = str(e.dxf.get("name", ""))
+            rows = max(1, int(e.dxf.get("row_count", 1) or 1))
+            cols = max(1, int(e.dxf.get("column_count", 1) or 1))
+            total += rows * cols * block(name)
+            if total > 10.0 * MAX_DXF_PIECES:
+                return total
+        return total
+
+    def block(name: str) -> float:
+        if name in memo:
+            return memo[name]
+        if name in busy:
+            return 0.0
+        if len(busy) >= _MAX_BLOCK_DEPTH:
+            raise DrawingError(
+                f"{path}: blocks nested deeper than {_MAX_BLOCK_DEPTH} (at block {name!r}); "
+                f"explode the nested blocks"
+            )
+        layout = doc.blocks.get(name)
+        if layout is None:
+            return 0.0
+        busy.add(name)
+        try:
+            memo[name] = count(layout)
+        finally:
+            busy.discard(name)
+        return memo[name]
+
+    return count(doc.modelspace())
+
+
 # --------------------------------------------------------------------------- public
 
 
@@ -732,6 +807,7 @@ def read_dxf(
     units: str | float | None = None,
     layers: str | Sequence[str] | None = None,
     hatch_boundaries: bool = True,
+    max_bytes: int = MAX_DXF_BYTES,
 ) -> Drawing:
     """Read the model space of a DXF file into exact pieces, in metres.
 
@@ -748,6 +824,8 @@ def read_dxf(
         layer that is on and not frozen is read.
     hatch_boundaries
         Read HATCH boundary paths as outline.
+    max_bytes
+        Larger files are refused before reading.
 
     Returns
     -------
@@ -762,7 +840,14 @@ def read_dxf(
     """
     p = Path(path)
     notes: list[str] = []
-    doc = _load(p, notes)
+    doc = _load(p, notes, max_bytes)
+    total = _expanded_count(doc, p)
+    if total > MAX_DXF_PIECES:
+        raise DrawingError(
+            f"{p}: the model space expands to about {total:.3g} entities through nested "
+            f"block references (more than {MAX_DXF_PIECES}); a cross-section needs far "
+            f"fewer: explode or purge the blocks, or check for a block reference bomb"
+        )
 
     layer_info: dict[str, LayerInfo] = {}
     for layer in doc.layers:
@@ -802,6 +887,7 @@ def read_dxf(
 
     m = scale * np.eye(2)
     pieces = [replace(pc, segment=pc.segment.transformed(m)) for pc in selected]
+    check_coordinates(pieces, str(p))
     counts = Counter({k: v for k, v in sink.counts.items() if v})
     logger.debug("%s: %d pieces from %s", p, len(pieces), dict(counts))
     return Drawing(

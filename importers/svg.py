@@ -54,7 +54,15 @@ from xml.etree.ElementTree import Element, ParseError
 import numpy as np
 
 from .curves import Bezier, EllipticalArc, Line, Segment
-from .drawing import UNIT_SCALES_M, Drawing, LayerInfo, Piece, select_pieces, units_to_metres
+from .drawing import (
+    UNIT_SCALES_M,
+    Drawing,
+    LayerInfo,
+    Piece,
+    check_coordinates,
+    select_pieces,
+    units_to_metres,
+)
 from .errors import DrawingError
 
 __all__ = [
@@ -71,6 +79,9 @@ logger = logging.getLogger(__name__)
 
 #: Largest SVG file read (bytes); larger files are refused before parsing.
 MAX_SVG_BYTES = 64 * 1024 * 1024
+
+#: Deepest element nesting accepted (the reader walks the tree recursively).
+MAX_SVG_DEPTH = 200
 
 #: Most elements visited, counting every expansion of ``<use>``.
 MAX_SVG_ELEMENTS = 2_000_000
@@ -976,6 +987,52 @@ class _Walker:
         return segs
 
 
+def _expanded_count(root: Element) -> float:
+    """Elements in the document once every ``<use>`` is expanded (an upper bound).
+
+    Counted with a memo per element, so an exponential ``<use>`` bomb is
+    refused before anything is built; a reference loop counts as nothing
+    here (the walk reports it).
+    """
+    stack = [(root, 1)]
+    while stack:
+        el, depth = stack.pop()
+        if depth > MAX_SVG_DEPTH:
+            raise DrawingError(
+                f"elements nested more than {MAX_SVG_DEPTH} deep (<{_local(el.tag)[1]}> at "
+                f"depth {depth}); flatten the groups"
+            )
+        stack.extend((child, depth + 1) for child in el)
+    ids: dict[str, Element] = {}
+    for el in root.iter():
+        ident = el.get("id")
+        if ident:
+            ids.setdefault(ident, el)
+    memo: dict[int, float] = {}
+    busy: set[int] = set()
+
+    def count(el: Element) -> float:
+        key = id(el)
+        if key in memo:
+            return memo[key]
+        if key in busy:
+            return 0.0
+        busy.add(key)
+        total = 1.0
+        for child in el:
+            total += count(child)
+        if _local(el.tag)[1] == "use":
+            href = el.get("href") or el.get(_XLINK_HREF) or ""
+            target = ids.get(href[1:]) if href.startswith("#") else None
+            if target is not None:
+                total += count(target)
+        busy.discard(key)
+        memo[key] = total
+        return total
+
+    return count(root)
+
+
 def _fmt_pt(p: Sequence[float]) -> str:
     return f"({float(p[0]):.9g}, {float(p[1]):.9g})"
 
@@ -1091,7 +1148,14 @@ def read_svg(
             f"{p}: the file is {size} bytes, over the {max_bytes}-byte cap for SVG; "
             f"raise max_bytes if the drawing is genuine"
         )
-    root = _parse_xml(p, p.read_bytes())
+    data = p.read_bytes()
+    if not data.strip():
+        raise DrawingError(f"{p}: the file is empty; save the drawing again")
+    if data.lstrip().startswith(b"AutoCAD Binary DXF") or re.match(
+        rb"\s*(999\s*\r?\n[^\n]*\n\s*)*0\s*\r?\n\s*SECTION", data[:4096]
+    ):
+        raise DrawingError(f"{p}: not an SVG file: it holds DXF; rename it to .dxf")
+    root = _parse_xml(p, data)
     ns, tag = _local(root.tag)
     if tag != "svg":
         raise DrawingError(f"{p}: not an SVG drawing (the root element is <{tag}>, not <svg>)")
@@ -1152,6 +1216,16 @@ def read_svg(
         wc = corners @ world.T
         page = (float(wc[:, 0].min()), float(wc[:, 1].min()),
                 float(wc[:, 0].max()), float(wc[:, 1].max()))
+    try:
+        total = _expanded_count(root)
+    except DrawingError as exc:
+        raise DrawingError(f"{p}: {exc}") from None
+    if total > MAX_SVG_ELEMENTS:
+        raise DrawingError(
+            f"{p}: more than {MAX_SVG_ELEMENTS} elements after expanding <use> (about "
+            f"{total:.3g}); the drawing is too large or its <use> references multiply "
+            f"without end (a reference bomb)"
+        )
     walker = _Walker(p, root)
     walker.notes = notes
     walker.viewports = [(root_box[2] - root_box[0], root_box[3] - root_box[1])]
@@ -1174,6 +1248,7 @@ def read_svg(
     keep = {id(s) for s in chosen}
     pieces = [pc for pc in selected if id(walker.shapes[owner[id(pc)]]) in keep]
     skipped.update(left_counts)
+    check_coordinates(pieces, str(p))
     if not pieces:
         what = ", ".join(f"{n} {k}" for k, n in sorted(skipped.items())) or "nothing"
         raise DrawingError(
