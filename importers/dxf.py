@@ -838,7 +838,16 @@ def read_dxf(
         If the file is missing, not DXF, truncated, holds no outline, holds a
         3D entity, has unknown units, or no layer matches ``layers``.
     """
-    p = Path(path)
+    # Hostile values (1e300, NaN) must end in the coordinate check below, not
+    # in numpy's overflow warnings on the way there.
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        return _read_dxf(Path(path), units, layers, hatch_boundaries, max_bytes)
+
+
+def _read_dxf(
+    p: Path, units: str | float | None, layers: str | Sequence[str] | None,
+    hatch_boundaries: bool, max_bytes: int,
+) -> Drawing:
     notes: list[str] = []
     doc = _load(p, notes, max_bytes)
     total = _expanded_count(doc, p)
@@ -866,9 +875,11 @@ def read_dxf(
 
     if not selected:
         what = ", ".join(f"{n} {k}" for k, n in sorted(sink.skipped.items())) or "nothing"
+        removed = [n for n in notes if n.startswith(("repaired: Deleted", "dropped"))]
+        why = f"; while loading: {removed[0]}" if removed else ""
         raise DrawingError(
             f"{p}: no closed outline: the model space holds no outline geometry "
-            f"(found {what}); draw the cross-section with lines, arcs, polylines or "
+            f"(found {what}{why}); draw the cross-section with lines, arcs, polylines or "
             f"splines, or select other layers"
         )
 

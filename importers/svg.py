@@ -344,7 +344,8 @@ class _Scanner:
     def error(self, what: str) -> DrawingError:
         snippet = self.s[max(0, self.i - 10): self.i + 10]
         return DrawingError(
-            f"{self.where}: bad path data at character {self.i} (near {snippet!r}): {what}"
+            f"{self.where}: bad path data at character {self.i} (near {snippet!r}): {what}; "
+            f"correct the path data there"
         )
 
     def number(self) -> float:
@@ -1137,7 +1138,16 @@ def read_svg(
         For unsafe XML (entity declarations, external entities), files over
         the size cap, malformed XML or path data, and drawings with no shape.
     """
-    p = Path(path)
+    # Hostile values (1e300, 1e400) must end in the coordinate check, not in
+    # numpy's overflow warnings on the way there.
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        return _read_svg(Path(path), units, layers, max_bytes, paint)
+
+
+def _read_svg(
+    p: Path, units: str | float | None, layers: str | Sequence[str] | None, max_bytes: int,
+    paint: str,
+) -> Drawing:
     if paint not in PAINT_MODES:
         raise DrawingError(f"{p}: paint={paint!r} is not one of {', '.join(PAINT_MODES)}")
     if not p.is_file():
