@@ -255,6 +255,15 @@ def _load(path: Path, notes: list[str], max_bytes: int = MAX_DXF_BYTES) -> Any:
                     doc, auditor = recover.readfile(path)
                 except _LOAD_ERRORS as exc:
                     doc, auditor = _load_without_bad_entities(path, data, exc, notes)
+            if any("conflicting handle" in str(e.message) for e in auditor.fixes):
+                # ezdxf deletes the second entity of a repeated handle; give it
+                # a new handle instead so no geometry is lost.
+                fixed = _renumber_repeated_handles(data, notes)
+                if fixed is not None:
+                    import io
+
+                    with _captured_ezdxf_log([]):
+                        doc, auditor = recover.read(io.BytesIO(fixed))
     except DrawingError:
         raise
     except _LOAD_ERRORS as exc:
@@ -262,6 +271,34 @@ def _load(path: Path, notes: list[str], max_bytes: int = MAX_DXF_BYTES) -> Any:
     for entry in list(auditor.fixes) + list(auditor.errors):
         notes.append(f"repaired: {entry.message}")
     return doc
+
+
+def _renumber_repeated_handles(data: bytes, notes: list[str]) -> bytes | None:
+    """Drop the handle (group 5) of every entity repeating an earlier one's.
+
+    ezdxf then gives those entities fresh handles. Returns ``None`` when no
+    entity repeats a handle (the conflict is elsewhere, in a table).
+    """
+    lines = data.split(b"\n")
+    seen: set[str] = set()
+    drop: list[int] = []
+    for start, end, typ, handle in _entity_chunks(lines):
+        if not handle:
+            continue
+        if handle in seen:
+            for i in range(start, end - 1, 2):
+                if lines[i].strip() == b"5":
+                    drop.append(i)
+                    break
+            notes.append(
+                f"{typ} at line {start + 1} repeats handle #{handle}: given a new handle "
+                f"(the file's handles are not unique; saving it again fixes them)"
+            )
+        seen.add(handle)
+    if not drop:
+        return None
+    gone = set(drop) | {i + 1 for i in drop}
+    return b"\n".join(ln for i, ln in enumerate(lines) if i not in gone)
 
 
 #: What ezdxf may raise on a damaged file. Its own ``DXFError`` derives from

@@ -14,19 +14,23 @@ Manifest entry (``schema`` ``sectionwave.bad-corpus/1``)::
      "file": str,            # file name in this folder
      "argv": [str],          # CLI arguments; "{file}" stands for the path
      "api": {"units": ...},  # keyword arguments of read_drawing (drawing cases)
+     "outcome": "refused",   # or "read": damaged but repairable, see below
      "error": str,           # expected exception class name (SectionwaveError subclass)
      "match": str,           # fragment of the message: what is wrong
      "place": str | null,    # fragment naming the place (handle, id, line, point)
      "fix": str,             # fragment saying what to do
      "made_at_test_time": bool,
      "about": str}           # one line for people
+
+A ``"read"`` entry has ``note`` (a fragment of the repair note that
+``inspect`` prints) and ``bodies`` (how many bodies result) instead of
+``error``, ``match``, ``place`` and ``fix``.
 """
 
 from __future__ import annotations
 
 import io
 import json
-import math
 import os
 import sys
 from collections.abc import Callable
@@ -40,6 +44,22 @@ _WRITERS: dict[str, Callable[[Path], None]] = {}
 CASES: list[Case] = []
 
 
+def repaired(name: str, suffix: str, note: str, bodies: int, about: str,
+             ) -> Callable[[Callable[[Path], None]], Callable[[Path], None]]:
+    """Register a damaged file that must be read, with ``note`` saying what was repaired."""
+
+    def deco(fn: Callable[[Path], None]) -> Callable[[Path], None]:
+        _WRITERS[name] = fn
+        CASES.append({
+            "name": name, "kind": "drawing", "file": name + suffix,
+            "argv": ["inspect", "{file}"], "api": {}, "outcome": "read",
+            "note": note, "bodies": bodies, "made_at_test_time": False, "about": about,
+        })
+        return fn
+
+    return deco
+
+
 def case(name: str, suffix: str, error: str, match: str, fix: str, about: str, *,
          place: str | None = None, argv: list[str] | None = None,
          api: dict[str, Any] | None = None, at_test_time: bool = False,
@@ -51,7 +71,7 @@ def case(name: str, suffix: str, error: str, match: str, fix: str, about: str, *
         _WRITERS[name] = fn
         CASES.append({
             "name": name, "kind": "drawing", "file": file,
-            "argv": argv or ["inspect", "{file}"], "api": api or {},
+            "argv": argv or ["inspect", "{file}"], "api": api or {}, "outcome": "refused",
             "error": error, "match": match, "place": place, "fix": fix,
             "made_at_test_time": at_test_time, "about": about,
         })
@@ -515,6 +535,47 @@ def _(path: Path) -> None:
 def _(path: Path) -> None:
     if path.exists():
         os.remove(path)
+
+
+# ------------------------------------------------------------------------ damaged but readable
+
+
+@repaired("dxf_duplicate_handles", ".dxf", "repeats handle", 2,
+          "two circles sharing one handle (ezdxf alone would delete the second)")
+def _(path: Path) -> None:
+    doc = _doc()
+    a = doc.modelspace().add_circle((0, 0), 1)
+    b = doc.modelspace().add_circle((5, 0), 1)
+    path.write_text(_dxf_text(doc).replace(f"  5\n{b.dxf.handle}\n", f"  5\n{a.dxf.handle}\n"),
+                    newline="\n")
+
+
+@repaired("dxf_lwpolyline_without_markers", ".dxf", "dropped unreadable entity LWPOLYLINE", 1,
+          "a circle and an LWPOLYLINE written without subclass markers")
+def _(path: Path) -> None:
+    doc = _doc()
+    doc.modelspace().add_circle((0, 0), 1)
+    doc.modelspace().add_lwpolyline([(3, 0), (4, 0), (4, 1)], close=True)
+    text = _dxf_text(doc)
+    i = text.index("LWPOLYLINE", text.index("ENTITIES"))
+    j = text.index("\n  0\n", i)
+    lines = text[i:j].split("\n")
+    kept = [f"{c}\n{v}" for c, v in zip(lines[1::2], lines[2::2], strict=False)
+            if c.strip() != "100"]
+    path.write_text(text[:i] + "LWPOLYLINE\n" + "\n".join(kept) + text[j:], newline="\n")
+
+
+@repaired("svg_filled_path_without_z", ".svg", "no closing Z", 1,
+          "a filled triangle whose path data does not end in Z")
+def _(path: Path) -> None:
+    path.write_text(_svg('<path id="tri" d="M10 10 L90 10 L90 90"/>'))
+
+
+@repaired("svg_page_background", ".svg", "page background", 1,
+          "a white page-sized rectangle under a filled disc")
+def _(path: Path) -> None:
+    path.write_text(_svg('<rect id="paper" width="100" height="100" fill="#ffffff"/>'
+                         '<circle id="rod" cx="50" cy="50" r="10" fill="gray"/>'))
 
 
 # ------------------------------------------------------------------------ main
