@@ -22,15 +22,15 @@ outside them are named in the notes (as are ``clip-path`` and ``mask``).
 
 Paint rule (``paint="auto"``), one an engineer can predict from the picture:
 
-1. Filled shapes (``fill`` other than ``none``; SVG's default is black) are
-   bodies. A filled subpath without ``Z`` is closed by a straight line, as
-   SVG fills it.
-2. Unfilled shapes (``fill="none"``, and every ``line``) are outline only
-   when the drawing has no filled shape; otherwise they are left out.
-3. An axis-aligned rectangle enclosing every other shape is left out when it
+1. An axis-aligned rectangle enclosing every other shape is left out when it
    is filled white or nearly (luminance >= 0.9: a page background) or is
    unfilled and lies on the page edges within 1% (a page frame); repeated
    while one remains (a figure and an axes background).
+2. Of the rest, filled shapes (``fill`` other than ``none``; SVG's default
+   is black) are bodies. A filled subpath without ``Z`` is closed by a
+   straight line, as SVG fills it.
+3. Unfilled shapes (``fill="none"``, and every ``line``) are outline only
+   when no shape is filled; otherwise they are left out.
 
 What is left out is listed in :attr:`Drawing.left_out` (``inspect`` shows
 it); ``paint="all"`` reads every shape as outline.
@@ -1050,23 +1050,9 @@ def _choose_by_paint(
         return list(shapes), [], Counter()
     left: list[str] = []
     counts: Counter[str] = Counter()
-    filled = [s for s in shapes if s.is_filled]
-    if filled:
-        chosen = filled
-        unfilled = [s for s in shapes if not s.is_filled]
-        if unfilled:
-            names = ", ".join(s.ident for s in unfilled[:6])
-            more = f" and {len(unfilled) - 6} more" if len(unfilled) > 6 else ""
-            left.append(
-                f"left out {len(unfilled)} unfilled shape(s) ({names}{more}): the drawing has "
-                f"filled shapes, and then only filled shapes are bodies (paint='all' reads "
-                f"every shape)"
-            )
-            counts.update(f"{s.tag} (unfilled)" for s in unfilled)
-    else:
-        chosen = list(shapes)
-    # Page background (paper-coloured filled rectangle) or page frame (unfilled
-    # rectangle on the page edges) enclosing everything else: not a body.
+    chosen = list(shapes)
+    # 1. Page background (paper-coloured filled rectangle) or page frame
+    # (unfilled rectangle on the page edges) enclosing everything else.
     while len(chosen) > 1:
         boxes = [s.box for s in chosen]
         span = max(max(b[2] for b in boxes) - min(b[0] for b in boxes),
@@ -1095,6 +1081,19 @@ def _choose_by_paint(
             f"paint='all' reads it as a body"
         )
         counts[f"{shp.tag} (page background or frame)"] += 1
+    # 2. Filled shapes are bodies; unfilled ones only when nothing is filled.
+    filled = [s for s in chosen if s.is_filled]
+    unfilled = [s for s in chosen if not s.is_filled]
+    if filled and unfilled:
+        names = ", ".join(s.ident for s in unfilled[:6])
+        more = f" and {len(unfilled) - 6} more" if len(unfilled) > 6 else ""
+        left.append(
+            f"left out {len(unfilled)} unfilled shape(s) ({names}{more}): the drawing has "
+            f"filled shapes, and then only filled shapes are bodies (paint='all' reads "
+            f"every shape)"
+        )
+        counts.update(f"{s.tag} (unfilled)" for s in unfilled)
+        chosen = filled
     return chosen, left, counts
 
 
