@@ -310,6 +310,9 @@ _LOAD_ERRORS: tuple[type[Exception], ...] = (Exception,)
 #: Most unreadable entities dropped from one file before the file is refused.
 MAX_DROPPED_ENTITIES = 20
 
+#: Time allowed for finding unreadable entities (each try reads the file again).
+RECOVERY_SECONDS = 1.0
+
 _ENTITY_IN_MESSAGE_RE = re.compile(r"\b([A-Z0-9_]+)\(#([0-9A-Fa-f]*)\)")
 
 #: Entities that belong to the entity before them (a POLYLINE's vertices, an INSERT's attributes).
@@ -379,21 +382,50 @@ def _load_without_bad_entities(
     :data:`MAX_DROPPED_ENTITIES` are dropped, then the first error stands.
     """
     import io
+    import time
 
     from ezdxf import recover
 
+    if "Invalid group code" in str(first):
+        # the tag stream itself is broken (a line lost or added): every tag
+        # after it is misread, and dropping entities cannot mend that
+        raise DrawingError(
+            f"{path}: cannot read the DXF file ({first}); the file is damaged at that "
+            f"line: save it again"
+        ) from first
     lines = data.split(b"\n")
     chunks = _entity_chunks(lines)
     dropped: list[tuple[int, int, str, str]] = []
     exc: BaseException = first
+    t_end = time.monotonic() + RECOVERY_SECONDS
 
-    def attempt(subset_drop: list[tuple[int, int, str, str]]) -> tuple[Any, Any] | None:
+    class _OutOfTime(Exception):
+        pass
+
+    def attempt(subset_drop: list[tuple[int, int, str, str]]) -> tuple[Any, Any] | Exception:
+        if time.monotonic() > t_end:
+            raise _OutOfTime()
         try:
             with _captured_ezdxf_log([]):
-                return recover.read(io.BytesIO(_without(lines, subset_drop)))
-        except _LOAD_ERRORS:
-            return None
+                return recover.read(io.BytesIO(_without(lines, subset_drop)))  # type: ignore[no-any-return]
+        except _LOAD_ERRORS as again:
+            return again
 
+    try:
+        return _drop_until_readable(path, lines, chunks, dropped, exc, notes, attempt)
+    except _OutOfTime:
+        pass
+    raise DrawingError(
+        f"{path}: cannot read the DXF file ({first}); save it again"
+    ) from first
+
+
+def _drop_until_readable(
+    path: Path, lines: list[bytes], chunks: list[tuple[int, int, str, str]],
+    dropped: list[tuple[int, int, str, str]], exc: BaseException, notes: list[str],
+    attempt: Callable[[list[tuple[int, int, str, str]]], tuple[Any, Any] | Exception],
+) -> tuple[Any, Any]:
+    first = exc
     for _ in range(MAX_DROPPED_ENTITIES):
         live = [c for c in chunks if c not in dropped]
         culprit: tuple[int, int, str, str] | None = None
@@ -406,11 +438,11 @@ def _load_without_bad_entities(
         if culprit is None and live:
             # smallest prefix of the entities that still fails: its last one is bad
             lo, hi = 0, len(live)
-            if attempt(dropped + live) is None:
+            if isinstance(attempt(dropped + live), Exception):
                 break  # the trouble is not in an entity
             while hi - lo > 1:
                 mid = (lo + hi) // 2
-                if attempt(dropped + live[mid:]) is None:
+                if isinstance(attempt(dropped + live[mid:]), Exception):
                     hi = mid
                 else:
                     lo = mid
@@ -424,11 +456,10 @@ def _load_without_bad_entities(
             f"{' #' + culprit[3] if culprit[3] else ''} at line {culprit[0] + 1} ({reason}); "
             f"the rest of the file was read: redraw or re-save that entity"
         )
-        try:
-            with _captured_ezdxf_log(notes):
-                return recover.read(io.BytesIO(_without(lines, dropped)))  # type: ignore[no-any-return]
-        except _LOAD_ERRORS as again:
-            exc = again
+        done = attempt(dropped)
+        if not isinstance(done, Exception):
+            return done
+        exc = done
     raise DrawingError(
         f"{path}: cannot read the DXF file ({first}); save it again"
     ) from first

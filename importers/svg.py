@@ -535,6 +535,11 @@ def _parse_xml(path: Path, data: bytes) -> Element:
         ) from None
     except DTDForbidden as exc:  # pragma: no cover - DTDs are allowed above
         raise DrawingError(f"{path}: DTD refused ({exc})") from None
+    except LookupError as exc:
+        raise DrawingError(
+            f"{path}: the XML declaration names an unknown character encoding ({exc}); "
+            f"save the file as UTF-8"
+        ) from None
     except ParseError as exc:
         line, col = getattr(exc, "position", (0, 0))
         raise DrawingError(
