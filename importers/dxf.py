@@ -529,7 +529,20 @@ class _Reader:
         typ = entity.dxftype()
         handler = _HANDLERS.get(typ)
         if handler is not None:
-            handler(self, entity, sink, parent)
+            try:
+                handler(self, entity, sink, parent)
+            except (DrawingError, GeometryError):
+                raise
+            except _LOAD_ERRORS as exc:
+                # ezdxf loaded the entity but cannot expand it (a vertex
+                # without a location, a bad bulge...): leave it out and say so.
+                sink.skipped[f"unreadable {typ}"] += 1
+                where = f"{_describe(entity)} of {parent}" if parent else _describe(entity)
+                self.notes.append(
+                    f"dropped unreadable entity {where} on layer "
+                    f"{entity.dxf.get('layer', '0')!r} ({type(exc).__name__}: {exc}); "
+                    f"the rest of the file was read: redraw or re-save that entity"
+                )
         elif typ in _THREE_D:
             raise self.refuse_3d(entity, "is a surface or solid")
         else:

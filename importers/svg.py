@@ -164,6 +164,11 @@ def parse_transform(text: str | None, *, where: str = "") -> Matrix:
                 f"matrix, translate, scale, rotate, skewX or skewY"
             )
         name, args = mt.group(1), [float(v) for v in _NUMBER_RE.findall(mt.group(2))]
+        if not all(math.isfinite(v) for v in args):
+            raise DrawingError(
+                f"{where}: transform {text!r} holds a number too large to be finite; "
+                f"give finite numbers"
+            )
         pos = mt.end()
         while pos < len(text) and text[pos] in " \t\r\n,":
             pos += 1
