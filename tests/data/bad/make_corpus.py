@@ -473,8 +473,8 @@ def _(path: Path) -> None:
     path.write_text(_svg('<circle id="sun" cx="0" cy="0" r="1e300"/>'))
 
 
-@case("svg_infinite_transform", ".svg", "DrawingError", "not a finite number",
-      "fix or delete that entity", "a scale of 1e400 (infinity once read)", place="circle")
+@case("svg_infinite_transform", ".svg", "DrawingError", "too large to be finite",
+      "give finite numbers", "a scale of 1e400 (infinity once read)", place="circle id='c'")
 def _(path: Path) -> None:
     path.write_text(_svg('<circle id="c" cx="5" cy="5" r="1" transform="scale(1e400)"/>'))
 
