@@ -785,13 +785,19 @@ def _hatch_path(r: _Reader, e: Any, path: Any) -> Iterator[Segment]:
 
 
 def _insert(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
-    refs = list(e.multi_insert()) if e.mcount > 1 else [e]
     name = e.dxf.name
     block = r.block(name, e)
     sink.skipped["ATTRIB"] += len(e.attribs)
     if block is None:
         sink.skipped["INSERT of missing block"] += 1
         return
+    if e.mcount * max(1, len(block.raws)) + len(sink.raws) > MAX_DXF_PIECES:
+        raise DrawingError(
+            f"{r.path}: {_describe(e)} on layer {e.dxf.get('layer', '0')!r} makes "
+            f"{e.mcount} copies of block {name!r}, more than the {MAX_DXF_PIECES} entities "
+            f"a drawing may expand to (a block reference bomb); explode or purge the blocks"
+        )
+    refs = list(e.multi_insert()) if e.mcount > 1 else [e]
     here = _describe(e) if not parent else f"{_describe(e)} of {parent}"
     ins_layer = str(e.dxf.get("layer", "0"))
     for ref in refs:
@@ -851,7 +857,8 @@ def _expanded_count(doc: Any, path: Path) -> float:
             name = str(e.dxf.get("name", ""))
             rows = max(1, int(e.dxf.get("row_count", 1) or 1))
             cols = max(1, int(e.dxf.get("column_count", 1) or 1))
-            total += rows * cols * block(name)
+            # each copy costs work even when its block is empty or missing
+            total += rows * cols * max(1.0, block(name))
             if total > 10.0 * MAX_DXF_PIECES:
                 return total
         return total
