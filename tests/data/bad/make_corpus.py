@@ -565,6 +565,18 @@ def _(path: Path) -> None:
     path.write_text(text[:i] + "LWPOLYLINE\n" + "\n".join(kept) + text[j:], newline="\n")
 
 
+@repaired("dxf_not_utf8", ".dxf", "unicode decoding error", 1,
+          "an R2018 file (UTF-8 by definition) with a Latin-1 layer name")
+def _(path: Path) -> None:
+    import ezdxf
+
+    doc = ezdxf.new("R2018", units=4)
+    doc.layers.add("COUPE_Epaisse")
+    doc.modelspace().add_circle((0, 0), 1, dxfattribs={"layer": "COUPE_Epaisse"})
+    text = _dxf_text(doc).replace("COUPE_Epaisse", "COUPE_\xe9paisse")
+    path.write_bytes(text.encode("latin-1"))
+
+
 @repaired("svg_filled_path_without_z", ".svg", "no closing Z", 1,
           "a filled triangle whose path data does not end in Z")
 def _(path: Path) -> None:
