@@ -434,3 +434,21 @@ def test_filled_path_without_z_is_closed(tmp_path):
     path = svg(tmp_path, '<path id="tri" fill="none" stroke="red" d="M0 0 L30 0 L30 40"/>')
     res = clean_drawing(read_svg(path))
     assert [e.code for e in res.audit.errors] == ["open-chain"]
+
+
+def test_use_width_and_height_size_a_referenced_svg(tmp_path):
+    # the inner svg's viewBox 0 0 10 10 shown 20 x 20 by the <use>: scale 2
+    path = svg(tmp_path, '<defs><svg id="tile" viewBox="0 0 10 10" width="5" height="5">'
+                         '<rect x="2" y="2" width="6" height="6"/></svg></defs>'
+                         '<use href="#tile" x="40" y="40" width="20" height="20"/>')
+    body = only_body(path)
+    assert body.area() == pytest.approx(144 * MM**2, rel=RTOL)
+    xmin, ymin, xmax, ymax = body.outer.bounding_box()
+    assert (xmin, xmax) == (pytest.approx(0.044, abs=1e-12), pytest.approx(0.056, abs=1e-12))
+
+
+def test_clip_path_is_named_in_the_notes(tmp_path):
+    path = svg(tmp_path, '<defs><clipPath id="k"><rect width="10" height="10"/></clipPath></defs>'
+                         '<circle id="c" cx="5" cy="5" r="8" clip-path="url(#k)"/>')
+    d = read_svg(path)
+    assert any("clip-path" in n and "not applied" in n for n in d.notes)
