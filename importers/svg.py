@@ -1087,7 +1087,7 @@ def _choose_by_paint(
         shp, why = frame
         chosen = [s for s in chosen if s is not shp]
         left.append(
-            f"left out {shp.src} ({shp.tag} enclosing every other shape, {why}); "
+            f"{shp.src} ({shp.tag} enclosing every other shape, {why}); "
             f"paint='all' reads it as a body"
         )
         counts[f"{shp.tag} (page background or frame)"] += 1
@@ -1098,7 +1098,7 @@ def _choose_by_paint(
         names = ", ".join(s.ident for s in unfilled[:6])
         more = f" and {len(unfilled) - 6} more" if len(unfilled) > 6 else ""
         left.append(
-            f"left out {len(unfilled)} unfilled shape(s) ({names}{more}): the drawing has "
+            f"{len(unfilled)} unfilled shape(s) ({names}{more}): the drawing has "
             f"filled shapes, and then only filled shapes are bodies (paint='all' reads "
             f"every shape)"
         )

@@ -422,7 +422,7 @@ def test_inspect_shows_what_was_left_out(tmp_path):
                          '<circle id="rod" cx="50" cy="50" r="10"/>')
     report = inspect_drawing(path)
     assert len(report["left_out"]) == 1
-    assert "left out: left out <rect id='bg'>" in format_inspection(report)
+    assert "left out: <rect id='bg'> (rect enclosing every other shape" in format_inspection(report)
 
 
 def test_filled_path_without_z_is_closed(tmp_path):
