@@ -15,7 +15,8 @@ repeats, packed numbers and arc flags such as ``a1 1 0 00 1 1``), ``rect``
 with ``preserveAspectRatio``, ``width``/``height`` in px, mm, cm, in, pt,
 pc (1 px = 1/96 in, 1 in = 25.4 mm exactly), ``display:none`` and
 ``visibility:hidden``, ``switch`` (first child whose conditions hold). CSS
-style sheets are not applied. Nested ``svg`` and ``symbol`` viewports take
+``<style>`` rules with simple selectors (tag, ``*``, ``.class``, ``#id``)
+are applied; others are counted in the notes. Nested ``svg`` and ``symbol`` viewports take
 their size from ``width``/``height`` (on the ``use`` first), else 100% of
 the enclosing viewport; their clipping is not applied, and shapes reaching
 outside them are named in the notes (as are ``clip-path`` and ``mask``).
@@ -238,13 +239,83 @@ _PRESENTATION = ("display", "visibility", "fill", "stroke", "fill-opacity", "ove
                  "clip-path", "mask")
 
 
-def _style(el: Element) -> dict[str, str]:
-    # presentation attributes first; the style attribute overrides them
-    out = {k: (el.get(k) or "").strip().lower() for k in _PRESENTATION if el.get(k) is not None}
-    for item in (el.get("style") or "").split(";"):
+_SIMPLE_SELECTOR_RE = re.compile(r"^(\*|[A-Za-z][\w-]*)?((?:[.#][\w-]+)*)$")
+_RULE_RE = re.compile(r"([^{}@]+)\{([^{}]*)\}")
+
+
+def _declarations(text: str) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for item in text.split(";"):
         key, sep, val = item.partition(":")
         if sep:
             out[key.strip().lower()] = val.strip().lower().replace("!important", "").strip()
+    return out
+
+
+class _StyleSheet:
+    """The document's CSS ``<style>`` rules with simple selectors.
+
+    Design programs (Illustrator among them) paint through classes, such as
+    ``.cls-1 { fill: none; stroke: #000 }``. Rules whose selectors are a
+    tag, ``*``, classes and an id (``rect``, ``.a``, ``path.a.b``, ``#x``) are
+    applied in order of specificity then position, after presentation
+    attributes and before the ``style`` attribute; rules with combinators,
+    pseudo-classes or attribute selectors, and at-rules, are not applied and
+    counted in :attr:`skipped_rules`.
+    """
+
+    def __init__(self, root: Element) -> None:
+        self.rules: list[tuple[tuple[int, int, int], int, str, set[str], set[str],
+                               dict[str, str]]] = []
+        self.skipped_rules = 0
+        order = 0
+        for el in root.iter():
+            if _local(el.tag)[1] != "style" or not (el.text or "").strip():
+                continue
+            text = re.sub(r"/\*.*?\*/", "", el.text or "", flags=re.S)
+            text = text.replace("<![CDATA[", "").replace("]]>", "")
+            self.skipped_rules += text.count("@")
+            for mt in _RULE_RE.finditer(text):
+                decls = _declarations(mt.group(2))
+                for sel in mt.group(1).split(","):
+                    sm = _SIMPLE_SELECTOR_RE.match(sel.strip())
+                    if sm is None or not sel.strip():
+                        self.skipped_rules += 1
+                        continue
+                    tag = sm.group(1) if sm.group(1) not in (None, "*") else ""
+                    parts = re.findall(r"[.#][\w-]+", sm.group(2))
+                    classes = {q[1:] for q in parts if q[0] == "."}
+                    ids = {q[1:] for q in parts if q[0] == "#"}
+                    spec = (len(ids), len(classes), 1 if tag else 0)
+                    self.rules.append((spec, order, tag, classes, ids, decls))
+                    order += 1
+        self.rules.sort(key=lambda r: (r[0], r[1]))
+
+    def matching(self, el: Element) -> dict[str, str]:
+        """Declarations of every rule matching ``el``, later and more specific winning."""
+        if not self.rules:
+            return {}
+        tag = _local(el.tag)[1]
+        classes = set((el.get("class") or "").split())
+        ident = el.get("id")
+        out: dict[str, str] = {}
+        for _spec, _order, r_tag, r_classes, r_ids, decls in self.rules:
+            if r_tag and r_tag != tag:
+                continue
+            if not r_classes <= classes:
+                continue
+            if r_ids and (len(r_ids) > 1 or ident not in r_ids):
+                continue
+            out.update(decls)
+        return out
+
+
+def _style(el: Element, sheet: _StyleSheet | None = None) -> dict[str, str]:
+    # presentation attributes first, then the style sheet, then the style attribute
+    out = {k: (el.get(k) or "").strip().lower() for k in _PRESENTATION if el.get(k) is not None}
+    if sheet is not None:
+        out.update(sheet.matching(el))
+    out.update(_declarations(el.get("style") or ""))
     return out
 
 
@@ -674,6 +745,7 @@ class _Walker:
         self.serial = 0
         #: size (user units) of the viewport each percentage refers to
         self.viewports: list[tuple[float, float]] = [(0.0, 0.0)]
+        self.sheet = _StyleSheet(root)
 
     def where(self, el: Element, tag: str) -> str:
         ident = el.get("id")
@@ -704,7 +776,7 @@ class _Walker:
         if ns not in ("", _SVG_NS):
             return  # editor metadata (sodipodi, inkscape, ...)
         self.serial += 1
-        style = _style(el)
+        style = _style(el, self.sheet)
         if style.get("display") == "none":
             self.skipped[f"{tag} (display:none)"] += 1
             return
@@ -746,8 +818,7 @@ class _Walker:
                 return
             self.add_shape(el, tag, where, m, layer, via, paint)
         elif tag in _NOT_RENDERED:
-            if tag == "style" and (el.text or "").strip():
-                self.notes.append("a CSS <style> sheet was found and not applied")
+            pass
         else:
             self.skipped[tag] += 1
 
@@ -815,7 +886,7 @@ class _Walker:
                 self.walk(child, m2, layer, hidden, depth + 1, uses, via, paint)
         finally:
             self.viewports.pop()
-        overflow = _style(el).get("overflow", el.get("overflow") or "hidden")
+        overflow = _style(el, self.sheet).get("overflow", "hidden")
         if w > 0 and h > 0 and overflow not in ("visible", "auto"):
             self.check_clip(first, m @ _translate(x, y), w, h, where)
 
@@ -865,7 +936,7 @@ class _Walker:
         if ttag in ("symbol", "svg"):
             # width/height on <use> override the symbol's (or svg's) own;
             # the <use> x/y already moved the origin.
-            tstyle = _style(target)
+            tstyle = _style(target, self.sheet)
             if tstyle.get("display") == "none":
                 self.skipped[f"{ttag} (display:none)"] += 1
                 return
@@ -1247,6 +1318,12 @@ def _read_svg(
         )
     walker = _Walker(p, root)
     walker.notes = notes
+    if walker.sheet.skipped_rules:
+        notes.append(
+            f"{walker.sheet.skipped_rules} CSS rule(s) or selector(s) in <style> were not "
+            f"applied (only tag, *, .class and #id selectors are): check the paint of "
+            f"the shapes they style"
+        )
     walker.viewports = [(root_box[2] - root_box[0], root_box[3] - root_box[1])]
     for child in root:
         walker.walk(child, world, "0", False, 1, (), "", {})

@@ -452,3 +452,24 @@ def test_clip_path_is_named_in_the_notes(tmp_path):
                          '<circle id="c" cx="5" cy="5" r="8" clip-path="url(#k)"/>')
     d = read_svg(path)
     assert any("clip-path" in n and "not applied" in n for n in d.notes)
+
+
+def test_css_classes_paint_the_shapes(tmp_path):
+    # painted through classes, as design programs write it: a white page
+    # background and two unfilled outlines, so the outlines are the bodies
+    path = svg(tmp_path, '<defs><style>/* exported */ .cls-1{fill:none;stroke:#000}'
+                         ' .cls-2 { fill: #fff } g > path { fill: red }</style></defs>'
+                         '<rect id="bg" class="cls-2" width="100" height="100"/>'
+                         '<rect id="plate" class="cls-1" x="20" y="20" width="30" height="10"/>'
+                         '<circle id="rod" class="cls-1" cx="70" cy="70" r="5"/>')
+    d = read_svg(path)
+    assert {p.handle for p in d.pieces} == {"plate", "rod"}
+    assert any("bg" in s and "page background" in s for s in d.left_out)
+    assert any("1 CSS rule(s)" in n for n in d.notes)
+    # the style attribute still wins over a class
+    path = svg(tmp_path, '<style>.hole{fill:none}</style>'
+                         '<rect id="a" x="10" y="10" width="50" height="50"/>'
+                         '<rect id="b" class="hole" style="fill:black" x="20" y="20" '
+                         'width="10" height="10"/>')
+    res = clean_drawing(read_svg(path))
+    assert res.is_ok and len(res.bodies[0].holes) == 1
