@@ -512,6 +512,19 @@ def _nest(
     # 5. self-intersections ------------------------------------------------------
     valid: list[_Ring] = []
     for r in rings:
+        # A ring whose pieces run back along each other has no inside: say so
+        # before shapely calls it a self-intersection.
+        per = r.contour.perimeter()
+        hull = 0.0 if r.poly is None else float(r.poly.convex_hull.area)
+        if hull <= 1e-12 * per * per:
+            p0 = r.contour.segments[0].start
+            audit.errors.append(AuditItem(
+                "self-intersection",
+                f"{r.describe()} through {_fmt(p0)} encloses no area (its pieces run back "
+                f"along each other); remove it or redraw the outline",
+                (float(p0[0]), float(p0[1])), r.layer, r.handles,
+            ))
+            continue
         reason = "too few points" if r.poly is None else shapely.is_valid_reason(r.poly)
         if reason != "Valid Geometry":
             mt = _POINT_RE.search(reason)

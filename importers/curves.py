@@ -325,12 +325,39 @@ class Bezier(Segment):
         return Bezier(self.control @ m.T + b)
 
 
+def _knot_runs(knots: FloatArray, lo: float, hi: float) -> list[tuple[int, int]]:
+    """``(first index, multiplicity)`` of each distinct knot strictly inside ``(lo, hi)``."""
+    runs: list[tuple[int, int]] = []
+    i = 0
+    while i < knots.size:
+        j = i
+        while j + 1 < knots.size and knots[j + 1] == knots[i]:
+            j += 1
+        if lo < knots[i] < hi:
+            runs.append((i, j - i + 1))
+        i = j + 1
+    return runs
+
+
 @dataclass(frozen=True, eq=False)
 class BSpline(Segment):
     """(Rational) B-spline: ``knots``, ``control (n, 2)``, optional ``weights``.
 
     Evaluated exactly with scipy's de Boor implementation; the curve
     parameter ``t`` in [0, 1] maps linearly onto the knot span.
+
+    Notes
+    -----
+    CAD programs store circles, arcs and chains of Bezier pieces as NURBS
+    whose interior knots repeat ``degree`` times. At such a knot the curve
+    is only continuous (C0): it may turn a corner there, and its second
+    derivative does not exist. The curve is therefore evaluated piece by
+    piece between these *joints* (one-sided derivatives at a joint, from the
+    piece that starts there), :meth:`subdivision_hints` always holds them,
+    and :meth:`split_at_joints` returns the pieces as separate segments so
+    that a contour sees each joint (and any corner) between two segments.
+    A knot repeated ``degree + 1`` times breaks the curve; the pieces are
+    then returned as they are and the gap is left to the cleaning step.
     """
 
     knots: FloatArray
@@ -343,26 +370,49 @@ class BSpline(Segment):
 
         knots = np.asarray(self.knots, dtype=float)
         ctrl = np.asarray(self.control, dtype=float)
-        if ctrl.ndim != 2 or ctrl.shape[1] != 2:
-            raise GeometryError(f"B-spline control points must be (n, 2), got {ctrl.shape}")
-        if knots.size != ctrl.shape[0] + self.degree + 1:
+        p = int(self.degree)
+        if p < 1:
+            raise GeometryError(f"a B-spline needs degree 1 or more, got {self.degree!r}")
+        if ctrl.ndim != 2 or ctrl.shape[1] != 2 or ctrl.shape[0] < p + 1:
             raise GeometryError(
-                f"B-spline of degree {self.degree} with {ctrl.shape[0]} control points "
-                f"needs {ctrl.shape[0] + self.degree + 1} knots, got {knots.size}"
+                f"B-spline control points must be (n, 2) with n > degree, got {ctrl.shape}"
             )
+        if knots.size != ctrl.shape[0] + p + 1:
+            raise GeometryError(
+                f"B-spline of degree {p} with {ctrl.shape[0]} control points "
+                f"needs {ctrl.shape[0] + p + 1} knots, got {knots.size}"
+            )
+        if not (np.all(np.isfinite(knots)) and np.all(np.isfinite(ctrl))):
+            raise GeometryError("B-spline knots and control points must be finite numbers")
+        if np.any(np.diff(knots) < 0):
+            raise GeometryError("B-spline knots must not decrease")
         w = None if self.weights is None else np.asarray(self.weights, dtype=float)
-        if w is not None and (w.shape != (ctrl.shape[0],) or np.any(w <= 0)):
+        if w is not None and (
+            w.shape != (ctrl.shape[0],) or not np.all(np.isfinite(w)) or np.any(w <= 0)
+        ):
             raise GeometryError("B-spline weights must be positive, one per control point")
+        lo, hi = float(knots[p]), float(knots[-p - 1])
+        if not hi > lo:
+            raise GeometryError("B-spline knot span is empty (all active knots are equal)")
         object.__setattr__(self, "knots", knots)
         object.__setattr__(self, "control", ctrl)
+        object.__setattr__(self, "degree", p)
         object.__setattr__(self, "weights", w)
+        object.__setattr__(self, "_span", (lo, hi))
+        # Split the knot vector at C0 joints (multiplicity >= degree) so that
+        # every piece is twice differentiable on its open span.
         ww = np.ones(ctrl.shape[0]) if w is None else w
-        num = _Spl(knots, ctrl * ww[:, None], self.degree, extrapolate=False)
-        den = _Spl(knots, ww, self.degree, extrapolate=False)
-        object.__setattr__(self, "_num", (num, num.derivative(1), num.derivative(2)))
-        object.__setattr__(self, "_den", (den, den.derivative(1), den.derivative(2)))
-        lo, hi = knots[self.degree], knots[-self.degree - 1]
-        object.__setattr__(self, "_span", (float(lo), float(hi)))
+        parts = []
+        for k_i, c_i, w_i in _split_knots(knots, ctrl, ww, p):
+            num = _Spl(k_i, c_i * w_i[:, None], p, extrapolate=True)
+            den = _Spl(k_i, w_i, p, extrapolate=True)
+            parts.append((
+                float(k_i[p]), float(k_i[-p - 1]),
+                (num, num.derivative(1), num.derivative(2) if p >= 2 else None),
+                (den, den.derivative(1), den.derivative(2) if p >= 2 else None),
+            ))
+        object.__setattr__(self, "_parts_list", parts)
+        object.__setattr__(self, "_breaks", np.array([q[0] for q in parts[1:]]))
 
     kind: str = field(default="bspline", init=False)
 
@@ -377,9 +427,25 @@ class BSpline(Segment):
 
     def _parts(self, t: ArrayLike, order: int) -> list[FloatArray]:
         u = self._u(t)
-        num = [np.asarray(f(u)) for f in self._num[: order + 1]]  # type: ignore[attr-defined]
-        den = [np.asarray(f(u))[:, None] for f in self._den[: order + 1]]  # type: ignore[attr-defined]
-        return num + den
+        parts = self._parts_list  # type: ignore[attr-defined]
+        # piece k covers [break_{k-1}, break_k); a joint belongs to the piece it starts
+        breaks: FloatArray = self._breaks  # type: ignore[attr-defined]
+        which = np.searchsorted(breaks, u, side="right")
+        num_out = [np.zeros((u.size, 2)) for _ in range(order + 1)]
+        den_out = [np.ones((u.size, 1)) if d == 0 else np.zeros((u.size, 1))
+                   for d in range(order + 1)]
+        for k in np.unique(which).tolist():
+            sel = which == k
+            a, b, num, den = parts[k]
+            uk = np.clip(u[sel], a, b)
+            for d in range(order + 1):
+                if num[d] is None:  # degree 1: the second derivative is zero
+                    num_out[d][sel] = 0.0
+                    den_out[d][sel] = 0.0
+                    continue
+                num_out[d][sel] = np.asarray(num[d](uk)).reshape(-1, 2)
+                den_out[d][sel] = np.asarray(den[d](uk)).reshape(-1, 1)
+        return num_out + den_out
 
     def points(self, t: ArrayLike) -> FloatArray:
         n0, d0 = self._parts(t, 0)
@@ -415,6 +481,74 @@ class BSpline(Segment):
         lo, hi = self._span  # type: ignore[attr-defined]
         inner = np.unique(self.knots[(self.knots > lo) & (self.knots < hi)])
         return np.concatenate([[0.0], (inner - lo) / (hi - lo), [1.0]])
+
+    def joints(self) -> FloatArray:
+        """Curve parameters ``t`` of the C0 joints (interior knots of multiplicity >= degree)."""
+        lo, hi = self._span  # type: ignore[attr-defined]
+        breaks: FloatArray = self._breaks  # type: ignore[attr-defined]
+        return (breaks - lo) / (hi - lo)
+
+    def split_at_joints(self) -> tuple[BSpline, ...]:
+        """The curve as separate B-splines, cut at every C0 joint.
+
+        Returns
+        -------
+        tuple of BSpline
+            ``(self,)`` when the curve has no joint; otherwise the pieces in
+            order, each with clamped end knots, together tracing the same
+            curve with the same parametrisation up to scaling.
+
+        Examples
+        --------
+        Two quadratic Bezier pieces meeting at a right angle:
+
+        >>> ctrl = [(0, 0), (1, 0), (2, 0), (2, 1), (2, 2)]
+        >>> spl = BSpline([0, 0, 0, 1, 1, 2, 2, 2], ctrl, 2)
+        >>> [tuple(float(v) for v in s.end) for s in spl.split_at_joints()]
+        [(2.0, 0.0), (2.0, 2.0)]
+        """
+        if not len(self._breaks):  # type: ignore[attr-defined]
+            return (self,)
+        ww = np.ones(self.control.shape[0]) if self.weights is None else self.weights
+        return tuple(
+            BSpline(k, c, self.degree, None if self.weights is None else w_)
+            for k, c, w_ in _split_knots(self.knots, self.control, ww, self.degree)
+        )
+
+
+def _split_knots(
+    knots: FloatArray, ctrl: FloatArray, weights: FloatArray, p: int
+) -> list[tuple[FloatArray, FloatArray, FloatArray]]:
+    """Cut a B-spline's data at its interior knots of multiplicity >= ``p``.
+
+    At a knot ``u`` first found at index ``j`` and repeated ``m >= p`` times,
+    the left piece keeps ``knots[:j]`` plus ``u`` repeated ``p + 1`` times and
+    the control points ``[:j]``; the right piece starts with ``u`` repeated
+    ``p + 1`` times, then ``knots[j + m:]``, and the control points from
+    ``j + m - p - 1`` on. For ``m = p`` both share control point ``j - 1``, the
+    curve point at ``u`` (the B-spline basis at a knot of multiplicity ``p``
+    is 1 on that control point alone).
+    """
+    lo, hi = float(knots[p]), float(knots[-p - 1])
+    out: list[tuple[FloatArray, FloatArray, FloatArray]] = []
+    k_rest, c_rest, w_rest = knots, ctrl, weights
+    for j0, m in _knot_runs(knots, lo, hi):
+        if m < p:
+            continue
+        # indices relative to the remaining (right) part
+        shift = knots.size - k_rest.size
+        j = j0 - shift
+        u = float(k_rest[j])
+        c_shift = ctrl.shape[0] - c_rest.shape[0]
+        jc = j0 - c_shift
+        out.append((
+            np.concatenate([k_rest[:j], np.full(p + 1, u)]),
+            c_rest[:jc], w_rest[:jc],
+        ))
+        k_rest = np.concatenate([np.full(p + 1, u), k_rest[j + m:]])
+        c_rest, w_rest = c_rest[jc + m - p - 1:], w_rest[jc + m - p - 1:]
+    out.append((k_rest, c_rest, w_rest))
+    return out
 
 
 @dataclass(frozen=True, eq=False)

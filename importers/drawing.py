@@ -31,10 +31,12 @@ from .curves import Segment
 from .errors import DrawingError
 
 __all__ = [
+    "MAX_COORD_M",
     "UNIT_SCALES_M",
     "Drawing",
     "LayerInfo",
     "Piece",
+    "check_coordinates",
     "check_layer_patterns",
     "normalise_layers",
     "select_layer",
@@ -111,6 +113,50 @@ def units_to_metres(units: str | float, *, where: str = "") -> tuple[str, float]
     return f"{scale:g} m", scale
 
 
+#: Largest coordinate accepted, metres: a cross-section a thousand kilometres
+#: across is a unit mistake (or a hostile file), and squares of larger values
+#: lose every digit of the areas and distances cleaning relies on.
+MAX_COORD_M = 1e6
+
+
+def check_coordinates(pieces: Sequence[Piece], where: str) -> None:
+    """Refuse pieces with NaN, infinite or absurdly large coordinates.
+
+    Parameters
+    ----------
+    pieces
+        Pieces in metres.
+    where
+        The file, for the message.
+
+    Raises
+    ------
+    DrawingError
+        Naming the first bad piece (source and layer), its value and the fix.
+
+    Examples
+    --------
+    >>> from sectionwave.importers.curves import Line
+    >>> check_coordinates([Piece(Line((0, 0), (1, 1)))], "a.dxf")
+    """
+    for pc in pieces:
+        seg = pc.segment
+        pts = seg.points(np.array([0.0, 0.5, 1.0]))
+        name = pc.source or seg.kind
+        if not np.all(np.isfinite(pts)):
+            raise DrawingError(
+                f"{where}: {name} on layer {pc.layer!r} has a coordinate that is not a "
+                f"finite number (NaN or infinity); fix or delete that entity"
+            )
+        big = float(np.abs(pts).max())
+        if big > MAX_COORD_M:
+            raise DrawingError(
+                f"{where}: {name} on layer {pc.layer!r} reaches {big:.3g} m from the origin, "
+                f"beyond the {MAX_COORD_M:.0e} m accepted; check the drawing's units or "
+                f"move the cross-section near the origin"
+            )
+
+
 @dataclass(frozen=True, eq=False)
 class Piece:
     """One exact segment of outline and where it came from.
@@ -172,6 +218,10 @@ class Drawing:
         points, hidden elements, pieces on switched-off layers...).
     notes
         What the loader repaired or noticed (audit notes), one line each.
+    left_out
+        Shapes that were read but are not outline by the importer's rules
+        (an SVG page background, unfilled shapes beside filled ones), one
+        line each naming them and the option that would keep them.
     """
 
     pieces: list[Piece] = field(default_factory=list)
@@ -183,6 +233,7 @@ class Drawing:
     entity_counts: Counter[str] = field(default_factory=Counter)
     skipped: Counter[str] = field(default_factory=Counter)
     notes: list[str] = field(default_factory=list)
+    left_out: list[str] = field(default_factory=list)
 
     @property
     def name(self) -> str:

@@ -10,8 +10,13 @@ the exact affine map of the reference, nested to any depth.
 
 Entities that are not outline (TEXT, MTEXT, DIMENSION, POINT, ...) are
 counted in :attr:`Drawing.skipped` and never guessed at. Entities that are
-not flat in the drawing plane (3DFACE, MESH, 3D polylines, an arc whose
-extrusion is tilted) are refused, with their handle in the message.
+not flat in the drawing plane (3DFACE, MESH, 3D polylines whose vertices
+do not share one height, an arc whose extrusion is tilted) are refused, with
+their handle in the message. A SPLINE whose knots repeat ``degree`` times
+(CAD programs' NURBS circles, arcs and joined Bezier pieces) is cut into one
+segment per piece at those joints. An entity that ezdxf cannot read at all
+(subclass markers left out by an old writer) is dropped, named in the notes,
+and the rest of the file is read.
 
 Only model space is read.
 """
@@ -31,11 +36,20 @@ from typing import Any
 import numpy as np
 
 from .curves import BSpline, EllipticalArc, Line, Segment
-from .drawing import Drawing, LayerInfo, Piece, select_pieces, units_to_metres
-from .errors import DrawingError
+from .drawing import (
+    Drawing,
+    LayerInfo,
+    Piece,
+    check_coordinates,
+    select_pieces,
+    units_to_metres,
+)
+from .errors import DrawingError, GeometryError
 
 __all__ = [
     "INSUNITS_M",
+    "MAX_DXF_BYTES",
+    "MAX_DXF_PIECES",
     "is_dxf_file",
     "read_dxf",
 ]
@@ -169,13 +183,31 @@ def _captured_ezdxf_log(notes: list[str]) -> Iterator[None]:
 FAST_READ_BYTES = 4 << 20
 
 
-def _load(path: Path, notes: list[str]) -> Any:
+#: Largest DXF file read (bytes); larger files are refused before reading.
+MAX_DXF_BYTES = 128 * 1024 * 1024
+
+#: Most outline entities a drawing may expand to through (nested) block references.
+#: A cross-section the solver can take (dense LU, some 15 000 unknowns of 16
+#: per panel) has at most a few thousand pieces; expanding block arrays costs
+#: about 0.1 ms a copy, so this also bounds the time spent before refusing.
+MAX_DXF_PIECES = 20_000
+
+
+def _load(path: Path, notes: list[str], max_bytes: int = MAX_DXF_BYTES) -> Any:
     import ezdxf
     from ezdxf import recover
     from ezdxf.lldxf.const import DXFError
 
     if not path.is_file():
         raise DrawingError(f"{path}: no such file")
+    size = path.stat().st_size
+    if size > max_bytes:
+        raise DrawingError(
+            f"{path}: the file is {size} bytes, over the {max_bytes}-byte cap for DXF; "
+            f"raise max_bytes if the drawing is genuine"
+        )
+    if size == 0:
+        raise DrawingError(f"{path}: the file is empty (0 bytes); save the drawing again")
     with open(path, "rb") as fh:
         data = fh.read()
     head = data[:4096]
@@ -189,9 +221,13 @@ def _load(path: Path, notes: list[str]) -> Any:
                 return doc
             if not _is_ascii_head(head):
                 shown = head[:24].decode("latin-1", errors="replace")
+                looks = head.lstrip(b"\xef\xbb\xbf \t\r\n")
+                hint = ("; it looks like SVG: rename it to .svg"
+                        if looks.startswith(b"<") and b"<svg" in head else
+                        "; check the file or give the right format")
                 raise DrawingError(
                     f"{path}: not a DXF file (it starts with {shown!r}, a DXF file starts "
-                    f"with '0' / 'SECTION'); check the file or give the right format"
+                    f"with '0' / 'SECTION'){hint}"
                 )
             if not _EOF_RE.search(data):
                 tail = [ln.strip() for ln in data[-256:].decode("latin-1").splitlines()]
@@ -218,14 +254,218 @@ def _load(path: Path, notes: list[str]) -> Any:
                 except DXFError:
                     doc = None
             if doc is None:
-                doc, auditor = recover.readfile(path)
+                try:
+                    doc, auditor = recover.readfile(path)
+                except _LOAD_ERRORS as exc:
+                    doc, auditor = _load_without_bad_entities(path, data, exc, notes)
+            if any("conflicting handle" in str(e.message) for e in auditor.fixes):
+                # ezdxf deletes the second entity of a repeated handle; give it
+                # a new handle instead so no geometry is lost.
+                fixed = _renumber_repeated_handles(data, notes)
+                if fixed is not None:
+                    import io
+
+                    with _captured_ezdxf_log([]):
+                        doc, auditor = recover.read(io.BytesIO(fixed))
     except DrawingError:
         raise
-    except (DXFError, OSError, UnicodeDecodeError, ValueError, IndexError, KeyError) as exc:
+    except _LOAD_ERRORS as exc:
         raise DrawingError(f"{path}: cannot read the DXF file ({exc}); save it again") from exc
     for entry in list(auditor.fixes) + list(auditor.errors):
         notes.append(f"repaired: {entry.message}")
     return doc
+
+
+def _renumber_repeated_handles(data: bytes, notes: list[str]) -> bytes | None:
+    """Drop the handle (group 5) of every entity repeating an earlier one's.
+
+    ezdxf then gives those entities fresh handles. Returns ``None`` when no
+    entity repeats a handle (the conflict is elsewhere, in a table).
+    """
+    lines = data.split(b"\n")
+    seen: set[str] = set()
+    drop: list[int] = []
+    for start, end, typ, handle in _entity_chunks(lines):
+        if not handle:
+            continue
+        if handle in seen:
+            for i in range(start, end - 1, 2):
+                if lines[i].strip() == b"5":
+                    drop.append(i)
+                    break
+            notes.append(
+                f"{typ} at line {start + 1} repeats handle #{handle}: given a new handle "
+                f"(the file's handles are not unique; saving it again fixes them)"
+            )
+        seen.add(handle)
+    if not drop:
+        return None
+    gone = set(drop) | {i + 1 for i in drop}
+    return b"\n".join(ln for i, ln in enumerate(lines) if i not in gone)
+
+
+#: What ezdxf may raise on a damaged file. Its own ``DXFError`` derives from
+#: ``Exception`` only, and a hostile file reaches ``IndexError``, ``KeyError``,
+#: ``TypeError``... deep inside it, so every ordinary exception is caught
+#: while loading and turned into a ``DrawingError`` naming the file.
+_LOAD_ERRORS: tuple[type[Exception], ...] = (Exception,)
+
+#: Most unreadable entities dropped from one file before the file is refused.
+MAX_DROPPED_ENTITIES = 20
+
+#: Time allowed for finding unreadable entities (each try reads the file again).
+RECOVERY_SECONDS = 1.0
+
+_ENTITY_IN_MESSAGE_RE = re.compile(r"\b([A-Z0-9_]+)\(#([0-9A-Fa-f]*)\)")
+
+#: Entities that belong to the entity before them (a POLYLINE's vertices, an INSERT's attributes).
+_FOLLOWERS = frozenset({"VERTEX", "SEQEND", "ATTRIB"})
+
+
+def _entity_chunks(lines: list[bytes]) -> list[tuple[int, int, str, str]]:
+    """``(first line, end line, type, handle)`` of each entity in ENTITIES and BLOCKS.
+
+    ``lines`` are the file's lines; a DXF tag is a pair of lines (group
+    code, value). Followers (VERTEX, SEQEND, ATTRIB) stay with their owner.
+    """
+    chunks: list[tuple[int, int, str, str]] = []
+    in_section = False
+    start = -1
+    typ = handle = ""
+    n = len(lines) - 1
+    i = 0
+
+    def close(end: int) -> None:
+        if start >= 0:
+            chunks.append((start, end, typ, handle))
+
+    while i < n:
+        code, value = lines[i].strip(), lines[i + 1].strip()
+        if code == b"0":
+            name = value.decode("latin-1").upper()
+            if name == "SECTION" and i + 3 <= n:
+                sec = lines[i + 3].strip().decode("latin-1").upper()
+                in_section = sec in ("ENTITIES", "BLOCKS")
+                close(i)
+                start = -1
+            elif name in ("ENDSEC", "EOF", "BLOCK", "ENDBLK") or not in_section:
+                close(i)
+                start = -1
+            elif name not in _FOLLOWERS or start < 0:
+                close(i)
+                start, typ, handle = i, name, ""
+        elif code == b"5" and start >= 0 and not handle:
+            handle = value.decode("latin-1").upper()
+        i += 2
+    close(n + 1)
+    return chunks
+
+
+def _without(lines: list[bytes], drop: list[tuple[int, int, str, str]]) -> bytes:
+    keep: list[bytes] = []
+    pos = 0
+    for a, b, _, _ in sorted(drop):
+        keep.extend(lines[pos:a])
+        pos = b
+    keep.extend(lines[pos:])
+    return b"\n".join(keep)
+
+
+def _load_without_bad_entities(
+    path: Path, data: bytes, first: BaseException, notes: list[str]
+) -> tuple[Any, Any]:
+    """Read a file that ezdxf refuses because of a few bad entities, dropping them.
+
+    Old or home-made writers leave out markers (subclass markers ``100``,
+    counts) that ezdxf needs for some entity types; one such entity makes
+    the whole file unreadable. The entity named in ezdxf's message (type
+    and handle) is dropped; when the message names none, the culprit is
+    found by bisection over the entities (a few reads of the file). Each
+    dropped entity is named in ``notes``. At most
+    :data:`MAX_DROPPED_ENTITIES` are dropped, then the first error stands.
+    """
+    import io
+    import time
+
+    from ezdxf import recover
+
+    if "Invalid group code" in str(first):
+        # the tag stream itself is broken (a line lost or added): every tag
+        # after it is misread, and dropping entities cannot mend that
+        raise DrawingError(
+            f"{path}: cannot read the DXF file ({first}); the file is damaged at that "
+            f"line: save it again"
+        ) from first
+    lines = data.split(b"\n")
+    chunks = _entity_chunks(lines)
+    dropped: list[tuple[int, int, str, str]] = []
+    exc: BaseException = first
+    t_end = time.monotonic() + RECOVERY_SECONDS
+
+    class _OutOfTime(Exception):
+        pass
+
+    def attempt(subset_drop: list[tuple[int, int, str, str]]) -> tuple[Any, Any] | Exception:
+        if time.monotonic() > t_end:
+            raise _OutOfTime()
+        try:
+            with _captured_ezdxf_log([]):
+                return recover.read(io.BytesIO(_without(lines, subset_drop)))  # type: ignore[no-any-return]
+        except _LOAD_ERRORS as again:
+            return again
+
+    try:
+        return _drop_until_readable(path, lines, chunks, dropped, exc, notes, attempt)
+    except _OutOfTime:
+        pass
+    raise DrawingError(
+        f"{path}: cannot read the DXF file ({first}); save it again"
+    ) from first
+
+
+def _drop_until_readable(
+    path: Path, lines: list[bytes], chunks: list[tuple[int, int, str, str]],
+    dropped: list[tuple[int, int, str, str]], exc: BaseException, notes: list[str],
+    attempt: Callable[[list[tuple[int, int, str, str]]], tuple[Any, Any] | Exception],
+) -> tuple[Any, Any]:
+    first = exc
+    for _ in range(MAX_DROPPED_ENTITIES):
+        live = [c for c in chunks if c not in dropped]
+        culprit: tuple[int, int, str, str] | None = None
+        mt = _ENTITY_IN_MESSAGE_RE.search(str(exc))
+        if mt is not None:
+            typ, handle = mt.group(1).upper(), mt.group(2).upper()
+            named = [c for c in live if c[2] == typ and (not handle or c[3] == handle)]
+            if len(named) == 1:
+                culprit = named[0]
+        if culprit is None and live:
+            # smallest prefix of the entities that still fails: its last one is bad
+            lo, hi = 0, len(live)
+            if isinstance(attempt(dropped + live), Exception):
+                break  # the trouble is not in an entity
+            while hi - lo > 1:
+                mid = (lo + hi) // 2
+                if isinstance(attempt(dropped + live[mid:]), Exception):
+                    hi = mid
+                else:
+                    lo = mid
+            culprit = live[lo]
+        if culprit is None:
+            break
+        dropped.append(culprit)
+        reason = str(exc) or type(exc).__name__
+        notes.append(
+            f"dropped unreadable entity {culprit[2]}"
+            f"{' #' + culprit[3] if culprit[3] else ''} at line {culprit[0] + 1} ({reason}); "
+            f"the rest of the file was read: redraw or re-save that entity"
+        )
+        done = attempt(dropped)
+        if not isinstance(done, Exception):
+            return done
+        exc = done
+    raise DrawingError(
+        f"{path}: cannot read the DXF file ({first}); save it again"
+    ) from first
 
 
 # --------------------------------------------------------------------------- geometry
@@ -292,7 +532,20 @@ class _Reader:
         typ = entity.dxftype()
         handler = _HANDLERS.get(typ)
         if handler is not None:
-            handler(self, entity, sink, parent)
+            try:
+                handler(self, entity, sink, parent)
+            except (DrawingError, GeometryError):
+                raise
+            except _LOAD_ERRORS as exc:
+                # ezdxf loaded the entity but cannot expand it (a vertex
+                # without a location, a bad bulge...): leave it out and say so.
+                sink.skipped[f"unreadable {typ}"] += 1
+                where = f"{_describe(entity)} of {parent}" if parent else _describe(entity)
+                self.notes.append(
+                    f"dropped unreadable entity {where} on layer "
+                    f"{entity.dxf.get('layer', '0')!r} ({type(exc).__name__}: {exc}); "
+                    f"the rest of the file was read: redraw or re-save that entity"
+                )
         elif typ in _THREE_D:
             raise self.refuse_3d(entity, "is a surface or solid")
         else:
@@ -383,9 +636,21 @@ def _ellipse(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
 
 def _polyline(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
     typ = e.dxftype()
-    if typ == "POLYLINE" and e.get_mode() != "AcDb2dPolyline":
-        raise r.refuse_3d(e, f"is a {e.get_mode()[4:]}")
-    if typ == "LWPOLYLINE" or typ == "POLYLINE":
+    mode = e.get_mode() if typ == "POLYLINE" else ""
+    if mode == "AcDb3dPolyline":
+        # Many writers flag every polyline 3D; one lying at a single height is
+        # a flat outline (its virtual LINEs are in world coordinates).
+        zs = [float(v.dxf.location.z) for v in e.vertices]
+        xy = [(float(v.dxf.location.x), float(v.dxf.location.y)) for v in e.vertices]
+        size = float(np.ptp(np.array(xy), axis=0).max()) if xy else 0.0
+        if zs and max(zs) - min(zs) > FLAT_TOL * max(1.0, size, max(map(abs, zs))):
+            raise r.refuse_3d(
+                e, f"is a true 3D polyline (vertex z from {min(zs):g} to {max(zs):g}; a "
+                f"3D polyline is read only when all its vertices share one z)"
+            )
+    elif typ == "POLYLINE" and mode != "AcDb2dPolyline":
+        raise r.refuse_3d(e, f"is a {mode[4:]}")
+    else:
         r.ocs_matrix(e)  # refuse tilted planes before expanding
     here = _describe(e)
     if parent:
@@ -420,8 +685,19 @@ def _spline(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
             f"ezdxf, which may differ slightly from the CAD program's curve"
         )
     weights = np.asarray(tool.weights(), dtype=float) if tool.is_rational else None
-    seg = BSpline(np.asarray(tool.knots(), dtype=float), ctrl[:, :2], int(tool.degree), weights)
-    r.emit(sink, e, seg, parent)
+    try:
+        seg = BSpline(np.asarray(tool.knots(), dtype=float), ctrl[:, :2], int(tool.degree),
+                      weights)
+    except GeometryError as exc:
+        raise DrawingError(
+            f"{r.path}: {_describe(e)} on layer {e.dxf.layer!r} is not a valid spline "
+            f"({exc}); redraw it"
+        ) from exc
+    # Knots repeated `degree` times (NURBS circles and arcs, joined Bezier
+    # pieces) are C0 joints, possibly corners: one segment per piece, so the
+    # contour and the mesher see each joint.
+    for piece in seg.split_at_joints():
+        r.emit(sink, e, piece, parent)
     sink.counts["SPLINE"] += 1
 
 
@@ -498,19 +774,33 @@ def _hatch_path(r: _Reader, e: Any, path: Any) -> Iterator[Segment]:
                 )
             ctrl = np.array([(p[0], p[1]) for p in edge.control_points], dtype=float)
             w = np.asarray(edge.weights, dtype=float) if len(edge.weights) else None
-            yield BSpline(np.asarray(edge.knot_values, dtype=float), ctrl, int(edge.degree), w)
+            try:
+                spl = BSpline(np.asarray(edge.knot_values, dtype=float), ctrl,
+                              int(edge.degree), w)
+            except GeometryError as exc:
+                raise DrawingError(
+                    f"{r.path}: {_describe(e)} has an invalid spline boundary edge ({exc}); "
+                    f"redraw the boundary or turn off hatch_boundaries"
+                ) from exc
+            yield from spl.split_at_joints()
         else:
             raise DrawingError(f"{r.path}: {_describe(e)} has an unknown boundary edge {ek}")
 
 
 def _insert(r: _Reader, e: Any, sink: _Sink, parent: str) -> None:
-    refs = list(e.multi_insert()) if e.mcount > 1 else [e]
     name = e.dxf.name
     block = r.block(name, e)
     sink.skipped["ATTRIB"] += len(e.attribs)
     if block is None:
         sink.skipped["INSERT of missing block"] += 1
         return
+    if e.mcount * max(1, len(block.raws)) + len(sink.raws) > MAX_DXF_PIECES:
+        raise DrawingError(
+            f"{r.path}: {_describe(e)} on layer {e.dxf.get('layer', '0')!r} makes "
+            f"{e.mcount} copies of block {name!r}, more than the {MAX_DXF_PIECES} entities "
+            f"a drawing may expand to (a block reference bomb); explode or purge the blocks"
+        )
+    refs = list(e.multi_insert()) if e.mcount > 1 else [e]
     here = _describe(e) if not parent else f"{_describe(e)} of {parent}"
     ins_layer = str(e.dxf.get("layer", "0"))
     for ref in refs:
@@ -551,6 +841,54 @@ _HANDLERS: dict[str, Callable[[_Reader, Any, _Sink, str], None]] = {
 }
 
 
+def _expanded_count(doc: Any, path: Path) -> float:
+    """How many entities the model space holds once every block reference is expanded.
+
+    Counted on the block definitions, without building anything, so a
+    reference bomb (blocks inserting blocks many times over) is refused at
+    once. Self-insertion counts as nothing here; the reader reports it.
+    """
+    memo: dict[str, float] = {}
+    busy: set[str] = set()
+
+    def count(entities: Any) -> float:
+        total = 0.0
+        for e in entities:
+            if e.dxftype() != "INSERT":
+                total += 1.0
+                continue
+            name = str(e.dxf.get("name", ""))
+            rows = max(1, int(e.dxf.get("row_count", 1) or 1))
+            cols = max(1, int(e.dxf.get("column_count", 1) or 1))
+            # each copy costs work even when its block is empty or missing
+            total += rows * cols * max(1.0, block(name))
+            if total > 10.0 * MAX_DXF_PIECES:
+                return total
+        return total
+
+    def block(name: str) -> float:
+        if name in memo:
+            return memo[name]
+        if name in busy:
+            return 0.0
+        if len(busy) >= _MAX_BLOCK_DEPTH:
+            raise DrawingError(
+                f"{path}: blocks nested deeper than {_MAX_BLOCK_DEPTH} (at block {name!r}); "
+                f"explode the nested blocks"
+            )
+        layout = doc.blocks.get(name)
+        if layout is None:
+            return 0.0
+        busy.add(name)
+        try:
+            memo[name] = count(layout)
+        finally:
+            busy.discard(name)
+        return memo[name]
+
+    return count(doc.modelspace())
+
+
 # --------------------------------------------------------------------------- public
 
 
@@ -560,6 +898,7 @@ def read_dxf(
     units: str | float | None = None,
     layers: str | Sequence[str] | None = None,
     hatch_boundaries: bool = True,
+    max_bytes: int = MAX_DXF_BYTES,
 ) -> Drawing:
     """Read the model space of a DXF file into exact pieces, in metres.
 
@@ -576,6 +915,8 @@ def read_dxf(
         layer that is on and not frozen is read.
     hatch_boundaries
         Read HATCH boundary paths as outline.
+    max_bytes
+        Larger files are refused before reading.
 
     Returns
     -------
@@ -588,9 +929,25 @@ def read_dxf(
         If the file is missing, not DXF, truncated, holds no outline, holds a
         3D entity, has unknown units, or no layer matches ``layers``.
     """
-    p = Path(path)
+    # Hostile values (1e300, NaN) must end in the coordinate check below, not
+    # in numpy's overflow warnings on the way there.
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        return _read_dxf(Path(path), units, layers, hatch_boundaries, max_bytes)
+
+
+def _read_dxf(
+    p: Path, units: str | float | None, layers: str | Sequence[str] | None,
+    hatch_boundaries: bool, max_bytes: int,
+) -> Drawing:
     notes: list[str] = []
-    doc = _load(p, notes)
+    doc = _load(p, notes, max_bytes)
+    total = _expanded_count(doc, p)
+    if total > MAX_DXF_PIECES:
+        raise DrawingError(
+            f"{p}: the model space expands to about {total:.3g} entities through nested "
+            f"block references (more than {MAX_DXF_PIECES}); a cross-section needs far "
+            f"fewer: explode or purge the blocks, or check for a block reference bomb"
+        )
 
     layer_info: dict[str, LayerInfo] = {}
     for layer in doc.layers:
@@ -609,9 +966,11 @@ def read_dxf(
 
     if not selected:
         what = ", ".join(f"{n} {k}" for k, n in sorted(sink.skipped.items())) or "nothing"
+        removed = [n for n in notes if n.startswith(("repaired: Deleted", "dropped"))]
+        why = f"; while loading: {removed[0]}" if removed else ""
         raise DrawingError(
             f"{p}: no closed outline: the model space holds no outline geometry "
-            f"(found {what}); draw the cross-section with lines, arcs, polylines or "
+            f"(found {what}{why}); draw the cross-section with lines, arcs, polylines or "
             f"splines, or select other layers"
         )
 
@@ -630,6 +989,7 @@ def read_dxf(
 
     m = scale * np.eye(2)
     pieces = [replace(pc, segment=pc.segment.transformed(m)) for pc in selected]
+    check_coordinates(pieces, str(p))
     counts = Counter({k: v for k, v in sink.counts.items() if v})
     logger.debug("%s: %d pieces from %s", p, len(pieces), dict(counts))
     return Drawing(

@@ -20,6 +20,7 @@ metres, every area in square metres::
                      "bounding_box_m": [...], "segments": int}]
       }],
       "smallest_feature_m": float | None,
+      "left_out": [str],
       "audit": {"notes": [str],
                 "fixes": [{"code", "message", "location", "layer", "handles"}],
                 "errors": [same]},
@@ -133,6 +134,7 @@ def inspection_report(drawing: Drawing, result: CleanResult) -> dict[str, Any]:
         "gap_tol_m": result.gap_tol_m,
         "bodies": bodies,
         "smallest_feature_m": None if not np.isfinite(smallest) else smallest,
+        "left_out": list(drawing.left_out),
         "audit": result.audit.to_dict(),
         "is_ok": result.is_ok,
     }
@@ -211,6 +213,8 @@ def format_inspection(report: dict[str, Any]) -> str:
         )
     if report["smallest_feature_m"] is not None:
         out.append(f"smallest feature: {_g(report['smallest_feature_m'])} m")
+    for line in report.get("left_out", []):
+        out.append(f"left out: {line}")
     audit = report["audit"]
     for note in audit["notes"]:
         out.append(f"note: {note}")

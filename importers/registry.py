@@ -116,10 +116,11 @@ class SvgImporter(Importer):
         *,
         units: str | float | None = None,
         layers: str | Sequence[str] | None = None,
+        paint: str = "auto",
     ) -> Drawing:
         from .svg import read_svg
 
-        return read_svg(path, units=units, layers=layers)
+        return read_svg(path, units=units, layers=layers, paint=paint)
 
 
 @dataclass(frozen=True)

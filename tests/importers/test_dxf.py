@@ -384,3 +384,104 @@ def test_wild_files_import_or_fail_in_one_line(wild_dir, caplog):
             assert d.pieces
     # ezdxf's own log lines go into the notes, not to the user's terminal
     assert not [r for r in caplog.records if r.name.startswith("ezdxf")]
+
+
+# ---------------------------------------------------------------- repeated knots, flat 3D, bad entity
+
+
+def _nurbs_circle_spline(msp, cx, cy, r):
+    # The rational quadratic circle of nine control points and double
+    # interior knots (Piegl and Tiller, The NURBS Book, 2nd ed., section 7.5;
+    # weights 1, sqrt(2)/2 alternating; from memory), as CAD programs store it.
+    w = math.sqrt(0.5)
+    ctrl = [(1, 0), (1, 1), (0, 1), (-1, 1), (-1, 0), (-1, -1), (0, -1), (1, -1), (1, 0)]
+    ctrl = [(cx + r * x, cy + r * y, 0.0) for x, y in ctrl]
+    return msp.add_rational_spline(
+        ctrl, [1, w, 1, w, 1, w, 1, w, 1], degree=2,
+        knots=[0, 0, 0, 1, 1, 2, 2, 3, 3, 4, 4, 4],
+    )
+
+
+def test_nurbs_circle_with_repeated_knots(tmp_path):
+    doc = new_doc()
+    spl = _nurbs_circle_spline(doc.modelspace(), 1.0, 2.0, 0.5)
+    d = read_dxf(save(doc, tmp_path))
+    # one segment per quarter: each double knot is a joint
+    assert len(d.pieces) == 4 and all(p.handle == spl.dxf.handle for p in d.pieces)
+    res = bodies_of(save(doc, tmp_path))
+    body = res.bodies[0]
+    # exact geometry: area pi r^2, perimeter 2 pi r
+    assert body.area() == pytest.approx(math.pi * 0.25, rel=RTOL)
+    assert body.perimeter() == pytest.approx(math.pi, rel=RTOL)
+    # a circle is smooth: no corner at the joints, curvature 1/r everywhere
+    assert not body.outer.corner_flags().any()
+    for seg in body.outer.segments:
+        assert np.allclose(seg.curvature(np.linspace(0, 1, 7)), 2.0, rtol=1e-12)
+
+
+def test_joined_bezier_spline_corners_become_joints(tmp_path):
+    #   (0,1) +-----+ (1,1)    a closed cubic B-spline whose knots repeat
+    #         |     |          three times at each corner: four straight
+    #   (0,0) +-----+ (1,0)    Bezier pieces, four corners (area 1, perimeter 4)
+    doc = new_doc()
+    corners = [(0, 0), (1, 0), (1, 1), (0, 1), (0, 0)]
+    ctrl = [corners[0]]
+    for a, b in zip(corners[:-1], corners[1:]):
+        a, b = np.array(a, float), np.array(b, float)
+        ctrl += [tuple(a + (b - a) / 3), tuple(a + 2 * (b - a) / 3), tuple(b)]
+    knots = [0] * 4 + [1] * 3 + [2] * 3 + [3] * 3 + [4] * 4
+    doc.modelspace().add_open_spline([(x, y, 0) for x, y in ctrl], degree=3, knots=knots)
+    res = bodies_of(save(doc, tmp_path))
+    outer = res.bodies[0].outer
+    assert len(outer.segments) == 4
+    assert outer.corner_flags().all()
+    assert res.bodies[0].area() == pytest.approx(1.0, rel=RTOL)
+    assert res.bodies[0].perimeter() == pytest.approx(4.0, rel=RTOL)
+
+
+def test_polyline_flagged_3d_at_one_height_is_read(tmp_path):
+    doc = new_doc()
+    doc.modelspace().add_polyline3d([(0, 0, 7), (2, 0, 7), (2, 1, 7), (0, 1, 7)], close=True)
+    res = bodies_of(save(doc, tmp_path))
+    assert res.bodies[0].area() == pytest.approx(2.0, rel=RTOL)
+
+
+def test_true_3d_polyline_refused_with_reason(tmp_path):
+    doc = new_doc()
+    pl = doc.modelspace().add_polyline3d([(0, 0, 0), (1, 0, 1), (1, 1, 0)], close=True)
+    with pytest.raises(DrawingError, match=rf"POLYLINE #{pl.dxf.handle} .*true 3D polyline "
+                                           r"\(vertex z from 0 to 1"):
+        read_dxf(save(doc, tmp_path))
+
+
+def _strip_subclass_markers(text: str, dxftype: str) -> str:
+    start = text.index(f"  0\n{dxftype}\n", text.index("ENTITIES"))
+    end = text.index("  0\n", start + 5)
+    chunk = text[start:end]
+    bare = "".join(
+        f"{c}\n{v}\n" for c, v in zip(chunk.splitlines()[::2], chunk.splitlines()[1::2])
+        if c.strip() != "100"
+    )
+    return text[:start] + bare + text[end:]
+
+
+@pytest.mark.parametrize("dxftype", ["LWPOLYLINE", "SPLINE", "HATCH"])
+def test_entity_without_subclass_markers_is_dropped_and_reported(tmp_path, dxftype):
+    # Older writers leave the subclass markers (group code 100) out; ezdxf
+    # refuses such an LWPOLYLINE, SPLINE or HATCH and with it the whole file.
+    doc = ezdxf.new("R2000", units=6)
+    msp = doc.modelspace()
+    msp.add_circle((0, 0), 1)
+    if dxftype == "LWPOLYLINE":
+        msp.add_lwpolyline([(3, 0), (4, 0), (4, 1)], close=True)
+    elif dxftype == "SPLINE":
+        msp.add_spline([(3, 0), (4, 1), (5, 0), (6, 1)])
+    else:
+        msp.add_hatch().paths.add_polyline_path([(3, 0), (4, 0), (4, 1)])
+    path = save(doc, tmp_path)
+    path.write_text(_strip_subclass_markers(path.read_text(), dxftype))
+    d = read_dxf(path)
+    assert d.entity_counts == {"CIRCLE": 1}
+    assert any(n.startswith(f"dropped unreadable entity {dxftype}") for n in d.notes)
+    res = clean_drawing(d)
+    assert any(f"dropped unreadable entity {dxftype}" in n for n in res.audit.notes)

@@ -328,3 +328,148 @@ def test_mirror_transform_orientation(tmp_path):
     # exact geometry: 20 x 10 minus 10 x 6
     assert body.area() == pytest.approx((200 - 60) * MM**2, rel=RTOL)
     assert body.outer.is_ccw and not body.holes[0].is_ccw
+
+
+# ---------------------------------------------------------------- SVG 2 rules, viewports, paint
+
+
+@pytest.mark.parametrize("radii", ['rx="5"', 'ry="5"', 'rx="5" ry="auto"', 'rx="-3" ry="5"'])
+def test_ellipse_with_one_radius_is_a_circle(tmp_path, radii):
+    # SVG 2 (Geometry Properties, 'rx'/'ry' auto): a missing or auto radius
+    # takes the other one's value; a negative value is invalid and is auto.
+    body = only_body(svg(tmp_path, f'<ellipse cx="20" cy="20" {radii}/>'))
+    assert body.area() == pytest.approx(25 * math.pi * MM**2, rel=RTOL)
+
+
+def test_symbol_viewbox_and_use_size(tmp_path):
+    # the symbol's 10 x 10 viewBox shown in a 40 x 40 <use>: scale 4, so the
+    # r = 2 circle at (5, 5) becomes r = 8 at (x + 20, y + 20)
+    path = svg(tmp_path, '<defs><symbol id="s" viewBox="0 0 10 10">'
+                         '<circle cx="5" cy="5" r="2"/></symbol></defs>'
+                         '<use href="#s" x="10" y="30" width="40" height="40"/>')
+    body = only_body(path)
+    assert body.area() == pytest.approx(math.pi * 64 * MM**2, rel=RTOL)
+    np.testing.assert_allclose(body.outer.segments[0].center, [0.030, 0.050], atol=1e-15)
+
+
+def test_nested_svg_default_size_is_the_parent_viewport(tmp_path):
+    # no width/height: 100% of the 100 x 100 parent, so viewBox 0 0 50 50 scales by 2
+    path = svg(tmp_path, '<svg viewBox="0 0 50 50"><rect x="10" y="10" width="5" height="5"/>'
+                         '</svg>')
+    assert only_body(path).area() == pytest.approx(100 * MM**2, rel=RTOL)
+    # width in percent of the parent viewport
+    path = svg(tmp_path, '<svg width="50%" height="50%" viewBox="0 0 50 50">'
+                         '<rect x="10" y="10" width="5" height="5"/></svg>')
+    assert only_body(path).area() == pytest.approx(25 * MM**2, rel=RTOL)
+
+
+def test_nested_viewport_overflow_is_reported_not_clipped(tmp_path):
+    path = svg(tmp_path, '<svg id="inner" x="10" y="10" width="20" height="20">'
+                         '<circle id="big" cx="10" cy="10" r="15"/></svg>')
+    d = read_svg(path)
+    assert any("reach outside the viewport" in n and "big" in n and "not applied" in n
+               for n in d.notes)
+    path = svg(tmp_path, '<svg x="10" y="10" width="20" height="20" overflow="visible">'
+                         '<circle cx="10" cy="10" r="15"/></svg>')
+    assert not any("outside the viewport" in n for n in read_svg(path).notes)
+
+
+def test_switch_reads_only_its_first_renderable_child(tmp_path):
+    path = svg(tmp_path, '<switch>'
+                         '<circle requiredExtensions="http://example.org/x" cx="10" cy="10" r="1"/>'
+                         '<circle systemLanguage="fr" cx="20" cy="10" r="2"/>'
+                         '<circle systemLanguage="en-GB, de" cx="30" cy="10" r="3"/>'
+                         '<circle cx="40" cy="10" r="4"/></switch>')
+    d = read_svg(path)
+    (piece,) = d.pieces
+    assert piece.segment.axes[0, 0] == pytest.approx(3 * MM, rel=RTOL)
+    assert d.skipped["switch alternative"] == 3
+
+
+def test_paint_filled_shapes_are_bodies_outlines_left_out(tmp_path):
+    path = svg(tmp_path, '<rect id="bg" width="100" height="100" fill="white"/>'
+                         '<rect id="frame" x="2" y="2" width="96" height="96" fill="none" '
+                         'stroke="black"/>'
+                         '<circle id="rod" cx="50" cy="50" r="10" style="fill:#333"/>')
+    d = read_svg(path)
+    assert {p.handle for p in d.pieces} == {"rod"}
+    assert any("frame" in s and "unfilled" in s for s in d.left_out)
+    assert any("bg" in s and "page background" in s for s in d.left_out)
+    # paint='all' keeps everything (three nested rings)
+    assert {p.handle for p in read_svg(path, paint="all").pieces} == {"bg", "frame", "rod"}
+
+
+def test_paint_outline_drawing_and_page_frame(tmp_path):
+    # nothing filled: outlines count, and the rectangle on the page edges is a frame
+    path = svg(tmp_path, '<g fill="none" stroke="black">'
+                         '<rect id="page" width="100" height="100"/>'
+                         '<rect id="plate" x="20" y="30" width="40" height="10"/></g>')
+    d = read_svg(path)
+    assert {p.handle for p in d.pieces} == {"plate"}
+    assert any("page" in s and "page frame" in s for s in d.left_out)
+    # a filled hollow square (white square on a black one) keeps its outer square
+    path = svg(tmp_path, '<rect id="o" x="10" y="10" width="80" height="80"/>'
+                         '<rect id="i" x="30" y="30" width="40" height="40" fill="#fff"/>')
+    res = clean_drawing(read_svg(path))
+    assert res.is_ok and len(res.bodies) == 1 and len(res.bodies[0].holes) == 1
+    assert res.bodies[0].area() == pytest.approx((6400 - 1600) * MM**2, rel=RTOL)
+
+
+def test_inspect_shows_what_was_left_out(tmp_path):
+    from sectionwave.importers.inspect import format_inspection, inspect_drawing
+
+    path = svg(tmp_path, '<rect id="bg" width="100" height="100" fill="white"/>'
+                         '<circle id="rod" cx="50" cy="50" r="10"/>')
+    report = inspect_drawing(path)
+    assert len(report["left_out"]) == 1
+    assert "left out: <rect id='bg'> (rect enclosing every other shape" in format_inspection(report)
+
+
+def test_filled_path_without_z_is_closed(tmp_path):
+    path = svg(tmp_path, '<path id="tri" d="M0 0 L30 0 L30 40"/>')
+    d = read_svg(path)
+    assert any("no closing Z" in n for n in d.notes)
+    assert only_body(path).area() == pytest.approx(600 * MM**2, rel=RTOL)
+    # unfilled, it stays open and cleaning says so
+    path = svg(tmp_path, '<path id="tri" fill="none" stroke="red" d="M0 0 L30 0 L30 40"/>')
+    res = clean_drawing(read_svg(path))
+    assert [e.code for e in res.audit.errors] == ["open-chain"]
+
+
+def test_use_width_and_height_size_a_referenced_svg(tmp_path):
+    # the inner svg's viewBox 0 0 10 10 shown 20 x 20 by the <use>: scale 2
+    path = svg(tmp_path, '<defs><svg id="tile" viewBox="0 0 10 10" width="5" height="5">'
+                         '<rect x="2" y="2" width="6" height="6"/></svg></defs>'
+                         '<use href="#tile" x="40" y="40" width="20" height="20"/>')
+    body = only_body(path)
+    assert body.area() == pytest.approx(144 * MM**2, rel=RTOL)
+    xmin, ymin, xmax, ymax = body.outer.bounding_box()
+    assert (xmin, xmax) == (pytest.approx(0.044, abs=1e-12), pytest.approx(0.056, abs=1e-12))
+
+
+def test_clip_path_is_named_in_the_notes(tmp_path):
+    path = svg(tmp_path, '<defs><clipPath id="k"><rect width="10" height="10"/></clipPath></defs>'
+                         '<circle id="c" cx="5" cy="5" r="8" clip-path="url(#k)"/>')
+    d = read_svg(path)
+    assert any("clip-path" in n and "not applied" in n for n in d.notes)
+
+
+def test_css_classes_paint_the_shapes(tmp_path):
+    # painted through classes, as design programs write it: a white page
+    # background and two unfilled outlines, so the outlines are the bodies
+    path = svg(tmp_path, '<defs><style>/* exported */ .cls-1{fill:none;stroke:#000}'
+                         ' .cls-2 { fill: #fff } g > path { fill: red }</style></defs>'
+                         '<rect id="bg" class="cls-2" width="100" height="100"/>'
+                         '<rect id="plate" class="cls-1" x="20" y="20" width="30" height="10"/>'
+                         '<circle id="rod" class="cls-1" cx="70" cy="70" r="5"/>')
+    d = read_svg(path)
+    assert {p.handle for p in d.pieces} == {"plate", "rod"}
+    assert any("bg" in s and "page background" in s for s in d.left_out)
+    assert any("1 CSS rule(s)" in n for n in d.notes)
+    # the style attribute still wins over a class
+    path = svg(tmp_path, '<style>.hole{fill:none}</style>'
+                         '<rect id="a" x="10" y="10" width="50" height="50"/>'
+                         '<rect id="b" class="hole" style="fill:black" x="20" y="20" '
+                         'width="10" height="10"/>')
+    res = clean_drawing(read_svg(path))
+    assert res.is_ok and len(res.bodies[0].holes) == 1
