@@ -43,6 +43,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+from numpy.typing import NDArray
 
 from .curves import Body, Contour, EllipticalArc, Line, Segment
 from .drawing import Drawing, Piece
@@ -174,7 +175,7 @@ class CleanResult:
 # --------------------------------------------------------------------------- helpers
 
 
-def _fmt(p: Sequence[float]) -> str:
+def _fmt(p: Sequence[float] | NDArray[np.float64]) -> str:
     return f"({float(p[0]):.9g}, {float(p[1]):.9g})"
 
 
@@ -234,7 +235,7 @@ class _Ring:
 # --------------------------------------------------------------------------- main
 
 
-def clean_drawing(
+def clean_drawing(  # noqa: C901 - one pass per cleaning stage, each reported in the audit
     drawing: Drawing | Sequence[Piece],
     *,
     gap_tol_m: float | None = None,
@@ -503,7 +504,7 @@ def _walk_ring(
     return _Ring(Contour(contour.segments, source=src), used, drawn_ccw)
 
 
-def _nest(
+def _nest(  # noqa: C901 - nesting, validity and clearance checks share one ring loop
     rings: list[_Ring], audit: Audit, tol: float, clearance_m: float | None
 ) -> CleanResult:
     import shapely

@@ -193,7 +193,7 @@ MAX_DXF_BYTES = 128 * 1024 * 1024
 MAX_DXF_PIECES = 20_000
 
 
-def _load(path: Path, notes: list[str], max_bytes: int = MAX_DXF_BYTES) -> Any:
+def _load(path: Path, notes: list[str], max_bytes: int = MAX_DXF_BYTES) -> Any:  # noqa: C901 - reader fallbacks for binary, strict, recovered and damaged files
     import ezdxf
     from ezdxf import recover
     from ezdxf.lldxf.const import DXFError
@@ -410,7 +410,7 @@ def _load_without_bad_entities(
             raise _OutOfTime()
         try:
             with _captured_ezdxf_log([]):
-                return recover.read(io.BytesIO(_without(lines, subset_drop)))  # type: ignore[no-any-return]
+                return recover.read(io.BytesIO(_without(lines, subset_drop)))
         except _LOAD_ERRORS as again:
             return again
 

@@ -53,6 +53,7 @@ from typing import Any
 from xml.etree.ElementTree import Element, ParseError
 
 import numpy as np
+from numpy.typing import NDArray
 
 from .curves import Bezier, EllipticalArc, Line, Segment
 from .drawing import (
@@ -445,7 +446,7 @@ class _Scanner:
         return self.i < len(self.s) and self.s[self.i] in "+-.0123456789"
 
 
-def parse_path_data(d: str, *, where: str = "") -> list[list[Segment]]:
+def parse_path_data(d: str, *, where: str = "") -> list[list[Segment]]:  # noqa: C901 - one branch per SVG path command
     """Exact segments of SVG path data, one list per subpath, in user units.
 
     Parameters
@@ -763,7 +764,7 @@ class _Walker:
             return ref
         return _length(value, ref, where, attr)
 
-    def walk(
+    def walk(  # noqa: C901 - one branch per SVG element kind
         self, el: Element, ctm: Matrix, layer: str, hidden: bool, depth: int,
         uses: tuple[str, ...], via: str, paint: dict[str, str],
     ) -> None:
@@ -1116,7 +1117,7 @@ def _expanded_count(root: Element) -> float:
     return count(root)
 
 
-def _fmt_pt(p: Sequence[float]) -> str:
+def _fmt_pt(p: Sequence[float] | NDArray[np.float64]) -> str:
     return f"({float(p[0]):.9g}, {float(p[1]):.9g})"
 
 
@@ -1225,7 +1226,7 @@ def read_svg(
         return _read_svg(Path(path), units, layers, max_bytes, paint)
 
 
-def _read_svg(
+def _read_svg(  # noqa: C901 - document-level steps: size cap, parse, viewport, paint rule
     p: Path, units: str | float | None, layers: str | Sequence[str] | None, max_bytes: int,
     paint: str,
 ) -> Drawing:
