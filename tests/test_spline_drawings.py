@@ -14,7 +14,7 @@ import math
 
 import ezdxf
 import numpy as np
-from sectionwave.engine import parse_case, solve_scene
+from sectionwave.engine import parse_case, solve_problem
 
 from tests.reference import C0, circle_far_field, relative_error
 
@@ -31,7 +31,7 @@ def _solve(path, k, tmp_path, from_deg=10.0):
         "incident": [{"kind": "plane", "from_deg": from_deg}],
         "output": {"plots": False, "vtk": False},
     }
-    return solve_scene(parse_case(case, base_dir=tmp_path)).frequencies[0]
+    return solve_problem(parse_case(case, base_dir=tmp_path).problem).frequencies[0]
 
 
 def _nurbs(msp, cx, cy, a, b):

@@ -206,7 +206,8 @@ def test_square_with_corners_identities_and_convergence(field, coated):
     assert abs(ff[150, 0] - ff[40, 1]) / scale < 1e-8
     assert np.max(fine.cross_sections.optical_residual) < 1e-8
     assert np.max(np.abs(coarse.farfield - ff)) / scale < 1e-6
-    assert fine.unknowns <= (1024 if coated else 640)  # corners cost their coarse panels only
+    # corners cost their coarse panels only (graded refinement needs 5000-8000 here)
+    assert fine.unknowns <= (2048 if coated else 640)
 
 
 def test_penetrable_case_errors():
