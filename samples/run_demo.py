@@ -2,8 +2,8 @@
 
 The signal mast (inline shapes, radar) and the buoy strut (SVG drawing,
 sonar) run in well under a minute together; the ribbed mast drawn in DXF
-(`samples/ribbed_mast_dxf.toml`, many sharp ribs) takes a few minutes and
-is left to run by hand: `sectionwave run samples/ribbed_mast_dxf.toml`.
+(`samples/ribbed_mast_dxf.toml`, many sharp ribs) takes longer and
+is left to run by hand (about a minute): `sectionwave run samples/ribbed_mast_dxf.toml`.
 """
 
 from __future__ import annotations
