@@ -53,6 +53,17 @@ def _reference(outer, hole):
     return Polygon(outer, [] if hole is None else [hole])
 
 
+def _check_body(path, outer, hole):
+    """The drawing reads back as one body with the reference's area, orientation and holes."""
+    res = clean_drawing(read_drawing(path))
+    assert res.is_ok
+    (body,) = res.bodies
+    ref = _reference(outer, hole)
+    assert body.area() == pytest.approx(ref.area * 1e-6, rel=1e-9)
+    assert body.outer.is_ccw and all(not h.is_ccw for h in body.holes)
+    assert len(body.holes) == (hole is not None)
+
+
 @SETTINGS
 @given(shape=star_polygons())
 def test_dxf_polygons_keep_area_orientation_and_holes(tmp_path, shape):
@@ -64,13 +75,7 @@ def test_dxf_polygons_keep_area_orientation_and_holes(tmp_path, shape):
         msp.add_lwpolyline(hole.tolist(), close=True)
     path = tmp_path / "p.dxf"
     doc.saveas(path)
-    res = clean_drawing(read_drawing(path))
-    assert res.is_ok
-    (body,) = res.bodies
-    ref = _reference(outer, hole)
-    assert body.area() == pytest.approx(ref.area * 1e-6, rel=1e-9)
-    assert body.outer.is_ccw and all(not h.is_ccw for h in body.holes)
-    assert len(body.holes) == (hole is not None)
+    _check_body(path, outer, hole)
 
 
 @SETTINGS
@@ -83,13 +88,7 @@ def test_svg_paths_keep_area_orientation_and_holes(tmp_path, shape):
     path = tmp_path / "p.svg"
     path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="2000mm" height="2000mm" '
                     f'viewBox="-1000 -1000 2000 2000"><path fill-rule="evenodd" d="{d}"/></svg>')
-    res = clean_drawing(read_drawing(path))
-    assert res.is_ok
-    (body,) = res.bodies
-    ref = _reference(outer, hole)
-    assert body.area() == pytest.approx(ref.area * 1e-6, rel=1e-9)
-    assert body.outer.is_ccw and all(not h.is_ccw for h in body.holes)
-    assert len(body.holes) == (hole is not None)
+    _check_body(path, outer, hole)
 
 
 @SETTINGS
