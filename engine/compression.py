@@ -38,7 +38,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .corners import CornerZone, compressed_inverse, levels_for
+from .corners import CornerZone, compressed_inverse, levels_for, reconstruct_zone
 from .mesh import PanelMesh, transmission_exponent
 from .system import BoundarySystem
 
@@ -70,7 +70,7 @@ class CompressedSystem:
         system: BoundarySystem,
         local_system: LocalSystem,
         tolerance: float,
-        cache: dict[Any, tuple[ComplexArray, ComplexArray]] | None = None,
+        cache: dict[Any, tuple[ComplexArray, ComplexArray, dict[int, Any]]] | None = None,
     ) -> None:
         self.base = system
         self.mesh = system.mesh
@@ -83,6 +83,7 @@ class CompressedSystem:
         self.compressions = 0
         self.levels: list[int] = []
         self._blocks: list[tuple[IntArray, ComplexArray]] = []
+        self._histories: list[dict[int, Any]] = []
 
     @property
     def n_unknowns(self) -> int:
@@ -113,7 +114,7 @@ class CompressedSystem:
         nu = transmission_exponent(2 * math.pi - zone.exterior_angle(), getattr(f, "ratio", 1.0))
         return levels_for(zone, self.tolerance, exponent=nu)
 
-    def _compress(self, zone: CornerZone, contour: int) -> tuple[ComplexArray, ComplexArray]:
+    def _compress(self, zone: CornerZone, contour: int) -> tuple[ComplexArray, ComplexArray, dict[int, Any]]:
         f = self.formulations[contour]
         levels = self._levels(zone, contour)
         self.levels.append(levels)
@@ -122,14 +123,17 @@ class CompressedSystem:
         key = zone.key(signature)
         if key is not None and key in self.cache:
             return self.cache[key]
-        result = compressed_inverse(
+        history: dict[int, Any] = {}
+        r_mat, a_star = compressed_inverse(
             zone,
             lambda local: self.local_system(contour, local).dense_matrix(),
             p=self.mesh.p,
             n_fields=f.unknowns_per_node,
             levels=levels,
+            history=history,
         )
         self.compressions += 1
+        result = (r_mat, a_star, history)
         if key is not None:
             self.cache[key] = result
         return result
@@ -139,13 +143,15 @@ class CompressedSystem:
         a = self.base.dense_matrix()
         n = a.shape[0]
         self._blocks = []
+        self._histories = []
         self.levels = []
         stars = []
         for zone in self.zones:
             contour, idx = self._zone_unknowns(zone)
-            r_mat, a_star = self._compress(zone, contour)
+            r_mat, a_star, history = self._compress(zone, contour)
             stars.append((idx, a[np.ix_(idx, idx)] - a_star))
             self._blocks.append((idx, r_mat))
+            self._histories.append(history)
         diag = np.diag_indices(n)
         a[diag] -= 1.0  # K° = A - A* with A* = I off the zones ...
         for idx, block in stars:
@@ -158,7 +164,11 @@ class CompressedSystem:
     def recover(self, x: ComplexArray) -> ComplexArray:
         """The weighted unknowns ``R x~`` (``x~`` off the zones)."""
         if not self._blocks:
-            self._blocks = [(idx, self._compress(z, c)[0]) for z in self.zones for c, idx in [self._zone_unknowns(z)]]
+            for zone in self.zones:
+                contour, idx = self._zone_unknowns(zone)
+                r_mat, _, history = self._compress(zone, contour)
+                self._blocks.append((idx, r_mat))
+                self._histories.append(history)
         out = np.array(x, dtype=complex, copy=True)
         for idx, r_mat in self._blocks:
             out[idx] = r_mat @ x[idx]
@@ -188,3 +198,56 @@ class CompressedSystem:
             for arr in out:
                 arr[nodes] = 0.0
         return out
+
+    def fine_system(
+        self, x: ComplexArray, depths: list[int] | None = None
+    ) -> tuple[BoundarySystem, ComplexArray]:
+        """The system on the mesh refined toward every corner, and its unknowns there.
+
+        The recursion is run backwards on each zone (``corners.reconstruct_zone``)
+        ``depths[i]`` levels deep (default 20); the innermost panels keep the
+        weighted values of that level. Fields from ``system.traces(x_fine)``
+        are right as close to a tip as about 0.4 of the innermost panel.
+        """
+        mesh, p = self.mesh, self.mesh.p
+        m = x.shape[1]
+        if not self._blocks:
+            self.recover(x)
+        replace: dict[int, list[tuple[int, float, float, ComplexArray]]] = {}
+        for n, (zone, (idx, _), history) in enumerate(zip(self.zones, self._blocks, self._histories)):
+            contour, _ = self._zone_unknowns(zone)
+            depth = 20 if depths is None else int(depths[n])
+            nf = self.formulations[contour].unknowns_per_node
+            replace.update(reconstruct_zone(zone, history, x[idx], mesh, nf, depth))
+        seg: list[int] = []
+        t0: list[float] = []
+        t1: list[float] = []
+        cont: list[int] = []
+        values: list[ComplexArray] = []
+        for i in range(mesh.n_panels):
+            c = int(mesh.contour_of_panel[i])
+            pieces = replace.get(i)
+            if pieces is None:
+                first = int(np.flatnonzero(mesh.contour_of_node == c)[0])
+                local = np.arange(i * p, (i + 1) * p) - first
+                nf = self.formulations[c].unknowns_per_node
+                val = np.stack([x[self.base._slots(c, a)[local]] for a in range(nf)])
+                pieces = [(int(mesh.seg_of_panel[i]), float(mesh.t0[i]), float(mesh.t1[i]), val)]
+            for sg, a0, a1, val in pieces:
+                seg.append(sg)
+                t0.append(a0)
+                t1.append(a1)
+                cont.append(c)
+                values.append(val)
+        fine = PanelMesh(
+            p, mesh.segments, np.array(seg), np.array(t0), np.array(t1), np.array(cont),
+            mesh.body_of_contour, np.zeros(len(seg), dtype=bool),
+        )
+        system = BoundarySystem(fine, self.formulations, self.k, self.regions)
+        x_fine = np.zeros((system.n_unknowns, m), dtype=complex)
+        cont_arr = np.array(cont)
+        for c, f in enumerate(self.formulations):
+            mine = [values[j] for j in np.flatnonzero(cont_arr == c)]
+            for a in range(f.unknowns_per_node):
+                x_fine[system._slots(c, a)] = np.concatenate([v[a] for v in mine], axis=0)
+        return system, x_fine

@@ -81,6 +81,7 @@ __all__ = [
     "levels_for",
     "local_zone_mesh",
     "prolongation",
+    "reconstruct_zone",
 ]
 
 FloatArray = NDArray[np.float64]
@@ -425,3 +426,59 @@ def _compressed_inverse(
     assert r_mat is not None
     a_star = local_matrix(local_zone_mesh(zone, 1.0, "c", p))
     return r_mat, a_star
+
+
+def reconstruct_zone(
+    zone: CornerZone,
+    history: dict[int, tuple[ComplexArray, ComplexArray, ComplexArray]],
+    v: ComplexArray,
+    mesh: PanelMesh,
+    n_fields: int,
+    depth: int,
+) -> dict[int, list[tuple[int, float, float, ComplexArray]]]:
+    """The fine density on a zone, by running the recursion backwards.
+
+    ``v`` is the compressed unknown ``rho~`` on the zone's coarse nodes
+    (fields stacked, ``(n_fields * 4 p, m)``). At each level the stored
+    ``X`` turns that level's ``rho~`` into the true density on the level's
+    two outer panels and the next level's ``rho~`` (Helsing's tutorial,
+    "reconstruction"); the innermost four panels keep the weighted density
+    of level ``depth``. Returns, per coarse panel of the zone, its fine
+    pieces ``(segment, t0, t1, values (n_fields, p, m))`` in contour order.
+    """
+    p = mesh.p
+    m = v.shape[1]
+    nlev = max(history)
+    d = int(min(depth, nlev - 1))
+    inner = np.concatenate([f * 6 * p + np.arange(p, 5 * p) for f in range(n_fields)])
+    outer = np.concatenate([f * 6 * p + np.r_[np.arange(0, p), np.arange(5 * p, 6 * p)] for f in range(n_fields)])
+    pp = np.kron(np.eye(n_fields), prolongation(p))
+    side_a: list[tuple[float, float, ComplexArray]] = []
+    side_b: list[tuple[float, float, ComplexArray]] = []
+    da, db = zone.delta
+    for level in range(1, d + 1):
+        x_mat, _, b_co = history[level]
+        yv = x_mat @ v
+        y = yv.reshape(n_fields, 6 * p, m)
+        s = 2.0 ** (-(level - 1))
+        oa = zone.outer[0] if level == 1 else 2 * da * s
+        ob = zone.outer[1] if level == 1 else 2 * db * s
+        side_a.append((oa, da * s, y[:, 0:p]))
+        side_b.append((db * s, ob, y[:, 5 * p : 6 * p]))
+        v = (pp @ v)[inner] - b_co @ yv[outer]
+    _, r_in, _ = history[d + 1]
+    w = (r_in @ v).reshape(n_fields, 4 * p, m)
+    s = 2.0 ** (-d)
+    side_a += [(2 * da * s, da * s, w[:, 0:p]), (da * s, 0.0, w[:, p : 2 * p])]
+    side_b_inner = [(0.0, db * s, w[:, 2 * p : 3 * p]), (db * s, 2 * db * s, w[:, 3 * p : 4 * p])]
+    seg_a = int(mesh.seg_of_panel[zone.panels[1]])
+    seg_b = int(mesh.seg_of_panel[zone.panels[2]])
+    ta, tb = zone.incoming.t_corner, zone.outgoing.t_corner
+    pa = [(seg_a, ta - a, ta - b, val) for a, b, val in side_a]
+    pb = [(seg_b, tb + a, tb + b, val) for a, b, val in side_b_inner + side_b[::-1]]
+    return {
+        zone.panels[0]: pa[:1],
+        zone.panels[1]: pa[1:],
+        zone.panels[2]: pb[:-1],
+        zone.panels[3]: pb[-1:],
+    }

@@ -70,7 +70,14 @@ import numpy as np
 import scipy.linalg as la
 from numpy.typing import NDArray
 
-from .corners import CornerSide, CornerZone, RcipError, compressed_inverse, levels_for, prolongation
+from .corners import (
+    CornerSide,
+    CornerZone,
+    RcipError,
+    compressed_inverse,
+    levels_for,
+    reconstruct_zone,
+)
 from .formulations import Dirichlet, Formulation, Neumann, Robin
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .operators import assemble_operators
@@ -524,40 +531,9 @@ def fine_traces(sol: RcipSolution, depth: int = 20) -> tuple[PanelMesh, ComplexA
     # per coarse panel: list of (seg, t0, t1, values (nf, p, m))
     replace: dict[int, list[tuple[int, float, float, ComplexArray]]] = {}
     for z, hist in zip(sol.zones, sol.histories):
-        nlev = max(hist)
-        d = int(min(depth, nlev - 1))
         idx1 = np.concatenate([np.arange(i * p, (i + 1) * p) for i in z.panels])
         v = np.concatenate([rho_c[idx1 + f * n] for f in range(nf)])
-        inner = np.concatenate([f * 6 * p + np.arange(p, 5 * p) for f in range(nf)])
-        outer = np.concatenate([f * 6 * p + np.r_[np.arange(0, p), np.arange(5 * p, 6 * p)] for f in range(nf)])
-        pp = np.kron(np.eye(nf), prolongation(p))
-        side_a: list[tuple[float, float, ComplexArray]] = []
-        side_b: list[tuple[float, float, ComplexArray]] = []
-        da, db = z.delta
-        for level in range(1, d + 1):
-            x_mat, _, b_co = hist[level]
-            yv = x_mat @ v
-            y = yv.reshape(nf, 6 * p, m)
-            s = 2.0 ** (-(level - 1))
-            oa = z.outer[0] if level == 1 else 2 * da * s
-            ob = z.outer[1] if level == 1 else 2 * db * s
-            side_a.append((oa, da * s, y[:, 0:p]))
-            side_b.append((db * s, ob, y[:, 5 * p : 6 * p]))
-            v = (pp @ v)[inner] - b_co @ yv[outer]
-        _, r_in, _ = hist[d + 1]
-        w = (r_in @ v).reshape(nf, 4 * p, m)
-        s = 2.0 ** (-d)
-        side_a += [(2 * da * s, da * s, w[:, 0:p]), (da * s, 0.0, w[:, p : 2 * p])]
-        side_b_inner = [(0.0, db * s, w[:, 2 * p : 3 * p]), (db * s, 2 * db * s, w[:, 3 * p : 4 * p])]
-        seg_a = int(mesh.seg_of_panel[z.panels[1]])
-        seg_b = int(mesh.seg_of_panel[z.panels[2]])
-        ta, tb = z.incoming.t_corner, z.outgoing.t_corner
-        pa = [(seg_a, ta - a, ta - b, val) for a, b, val in side_a]
-        pb = [(seg_b, tb + a, tb + b, val) for a, b, val in side_b_inner + side_b[::-1]]
-        replace[z.panels[0]] = pa[:1]
-        replace[z.panels[1]] = pa[1:]
-        replace[z.panels[2]] = pb[:-1]
-        replace[z.panels[3]] = pb[-1:]
+        replace.update(reconstruct_zone(z, hist, v, mesh, nf, depth))
     seg, t0, t1, cont, vals = [], [], [], [], []
     rho_p = np.stack([rho_c[f * n : (f + 1) * n] for f in range(nf)]).reshape(nf, mesh.n_panels, p, m)
     # the coarse traces off the zones are the compressed ones (R = I there)

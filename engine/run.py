@@ -27,7 +27,7 @@ from .compression import CompressedSystem
 from .fields import cross_sections, far_field, far_field_each, incident_field
 from .formulations import formulation_for
 from .mesh import BoundaryContour, PanelMesh, build_panels
-from .problem import Problem
+from .problem import NearFieldRequest, Problem
 from .rcip_system import coarse_corner_mesh
 from .regions import Layout, check_corner_contrast, scene_layout
 from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings
@@ -297,7 +297,15 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
     near = None
     if problem.near_field is not None:
         t_near = time.perf_counter()
-        near = _near_fields(scene, solution.system, u, dudn, None if inside is None else inside[1])
+        system, nu, nd, ni = solution.system, u, dudn, None if inside is None else inside[1]
+        if isinstance(system, CompressedSystem):
+            # next to a corner the weighted values are not the density: rebuild it
+            # on the refined levels, as deep as the closest field point needs
+            system, x_fine = system.fine_system(solution.unknowns, _depths(system, problem.near_field))
+            nu, nd = system.traces(x_fine)
+            fine_inside = system.inside_traces(x_fine)
+            ni = None if fine_inside is None else fine_inside[1]
+        near = _near_fields(scene, system, nu, nd, ni)
         timings["near_field_s"] = time.perf_counter() - t_near
     return FrequencySolution(
         frequency_hz=freq,
@@ -321,6 +329,32 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         near_field=near,
         dudn_inside=None if inside is None else inside[1],
     )
+
+
+def _depths(system: CompressedSystem, request: NearFieldRequest) -> list[int]:
+    """Levels to rebuild at each corner: until the innermost panel is below 0.4 of the
+    distance from the tip to the closest requested point (at most 40).
+    """
+    pts = []
+    if request.x_m is not None and request.y_m is not None:
+        gx, gy = np.meshgrid(request.x_m, request.y_m)
+        pts.append(np.column_stack([gx.ravel(), gy.ravel()]))
+    if request.probes_m is not None:
+        pts.append(np.asarray(request.probes_m, dtype=float))
+    allp = np.vstack(pts) if pts else np.zeros((0, 2))
+    out = []
+    for zone in system.zones:
+        size = 2.0 * max(zone.outer) * max(
+            float(np.hypot(*zone.incoming.segment.derivative(np.array([zone.incoming.t_corner]))[0])),
+            float(np.hypot(*zone.outgoing.segment.derivative(np.array([zone.outgoing.t_corner]))[0])),
+        )
+        if allp.shape[0] == 0:
+            out.append(0)
+            continue
+        dmin = float(np.min(np.hypot(*(allp - zone.point).T)))
+        need = math.ceil(math.log2(size / max(0.4 * dmin, 1e-300))) if dmin < size else 0
+        out.append(int(min(40, max(0, need))))
+    return out
 
 
 def _near_fields(
