@@ -65,11 +65,6 @@ class SolvePass:
     farfield: ComplexArray
     cross_sections: CrossSections | None
     far_field_s: float = 0.0
-    #: False when the surface absorption (and so the optical residual) is only
-    #: approximate: absorbing surfaces whose corners are compressed carry
-    #: weighted values next to the corners, and a product of two weighted
-    #: values is not the weighted product.
-    residual_is_bound: bool = True
 
 
 @dataclass
@@ -155,7 +150,7 @@ def refine_until_accurate(
         est = panel_estimates(mesh, current.solution.system.node_unknowns(current.solution.unknowns))
         tail_estimate = float(np.sum(est))
         estimated = tail_estimate if change is None else min(tail_estimate, change)
-        if current.cross_sections is not None and current.residual_is_bound:
+        if current.cross_sections is not None:
             estimated = max(estimated, float(np.max(current.cross_sections.optical_residual)))
         timings["far_field_s"] += current.far_field_s + time.perf_counter() - t_est
         history.append(estimated)

@@ -42,6 +42,7 @@ __all__ = [
     "incident_field",
     "line_source_wave",
     "plane_wave",
+    "surface_absorption",
     "surface_quantities",
 ]
 
@@ -144,6 +145,13 @@ class CrossSections:
     surface_absorption_m: FloatArray
     optical_residual: FloatArray
 
+    def with_surface_absorption(self, c_abs: FloatArray) -> CrossSections:
+        """The same widths with the surface absorption (and so the residual) computed elsewhere."""
+        scale = np.maximum(np.abs(self.extinction_width_m), 1e-300)
+        residual = np.abs(self.extinction_width_m - self.scattering_width_m - c_abs) / scale
+        return CrossSections(self.from_deg, self.scattering_width_m, self.extinction_width_m,
+                             self.absorption_width_m, np.asarray(c_abs, dtype=float), residual)
+
     def widths(self) -> dict[str, FloatArray]:
         """The widths and the residual keyed by their names in the summary."""
         return {
@@ -174,13 +182,20 @@ def cross_sections(
     c_s = np.sum(np.abs(ff) ** 2, axis=0) * (2 * np.pi / n_ang)
     fwd = far_field_each(mesh, k, u, dudn, np.asarray(from_deg, dtype=float) + 180.0)
     c_ext = -2 * np.sqrt(2 * np.pi / abs(k)) * np.real(np.exp(-0.25j * np.pi) * fwd)
-    # Time-averaged intensity for exp(+j w t) is -Im(conj(u) grad u) / k in
-    # units of the incident plane wave's; the power flowing into the body
-    # through its surface (n out of the body) is then +Im(int conj(u) dudn ds) / k.
-    c_abs = np.imag(np.sum(np.conj(u) * dudn * mesh.weights[:, None], axis=0)) / abs(k)
+    c_abs = surface_absorption(mesh, k, u, dudn)
     scale = np.maximum(np.abs(c_ext), 1e-300)
     residual = np.abs(c_ext - c_s - c_abs) / scale
     return CrossSections(np.asarray(from_deg, dtype=float), c_s, c_ext, c_ext - c_s, c_abs, residual)
+
+
+def surface_absorption(mesh: PanelMesh, k: complex, u: ComplexArray, dudn: ComplexArray) -> FloatArray:
+    """Power flowing into the bodies through their surfaces, as a width (m), per column.
+
+    Time-averaged intensity for exp(+j w t) is ``-Im(conj(u) grad u) / k`` in
+    units of the incident plane wave's; with n out of the body the inflow is
+    ``+Im(int conj(u) du/dn ds) / k``.
+    """
+    return np.imag(np.sum(np.conj(u) * dudn * mesh.weights[:, None], axis=0)) / abs(k)
 
 
 def surface_quantities(

@@ -24,7 +24,7 @@ from numpy.typing import NDArray
 
 from .adapt import AccuracyWarning, SolvePass, refine_until_accurate
 from .compression import CompressedSystem
-from .fields import cross_sections, far_field, far_field_each, incident_field
+from .fields import cross_sections, far_field, far_field_each, incident_field, surface_absorption
 from .formulations import formulation_for
 from .mesh import BoundaryContour, PanelMesh, build_panels
 from .problem import NearFieldRequest, Problem
@@ -256,12 +256,19 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
             u, dudn = u[ext_nodes], dudn[ext_nodes]
         ff = far_field(ext_mesh, k, u, dudn, angles)
         widths = None
-        exact = True
         if plane:
             widths = cross_sections(ext_mesh, k, u[:, plane], dudn[:, plane], plane_from)
             absorbs = np.any(np.abs(widths.surface_absorption_m) > 1e-6 * np.abs(widths.extinction_width_m))
-            exact = not (current.corner_zones and absorbs)
-        return SolvePass(solution, ff, widths, time.perf_counter() - t_ff, exact)
+            if absorbs and isinstance(system, CompressedSystem):
+                # a product of weighted values is not the weighted product: take the
+                # surface flux from the density rebuilt on the refined levels
+                fine, x_fine = system.fine_system(solution.unknowns[:, plane])
+                fu, fd = fine.traces(x_fine)
+                f_ext, f_nodes = scene.exterior_part(fine.mesh)
+                if f_nodes is not None:
+                    fu, fd = fu[f_nodes], fd[f_nodes]
+                widths = widths.with_surface_absorption(surface_absorption(f_ext, k, fu, fd))
+        return SolvePass(solution, ff, widths, time.perf_counter() - t_ff)
 
     adaptive = refine_until_accurate(
         mesh, evaluate,
@@ -282,12 +289,6 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         mono[plane] = far_field_each(ext_mesh, k, ue[:, plane], de[:, plane], plane_from)
     timings["far_field_s"] += time.perf_counter() - t_post
     notes += adaptive.notes
-    if not adaptive.last.residual_is_bound:
-        notes.append(
-            f"at {freq:.6g} Hz the surface absorption of the absorbing bodies is computed from the "
-            "weighted values next to compressed corners, so the optical-theorem residual is approximate "
-            "and does not bound the estimate"
-        )
     condition = solution.report.condition_estimate
     if condition is not None and condition > CONDITION_WARN:
         msg = f"at {freq:.6g} Hz the system condition number is {condition:.2e}"
@@ -332,8 +333,10 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
 
 
 def _depths(system: CompressedSystem, request: NearFieldRequest) -> list[int]:
-    """Levels to rebuild at each corner: until the innermost panel is below 0.4 of the
-    distance from the tip to the closest requested point (at most 40).
+    """Levels to rebuild at each corner (at most 40).
+
+    Deep enough that the innermost panel is below 0.4 of the distance from
+    the tip to the closest requested point.
     """
     pts = []
     if request.x_m is not None and request.y_m is not None:

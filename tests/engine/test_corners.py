@@ -123,6 +123,8 @@ def test_impedance_square_with_compressed_corners(field):
     assert abs(ff[150, 0] - ff[40, 1]) / scale < 1e-8
     w = b.cross_sections
     assert np.all(w.extinction_width_m > w.scattering_width_m)
+    # absorption two ways: C_ext - C_s and the flux into the surface (rebuilt next to corners)
+    assert np.max(w.optical_residual) < 1e-8
     assert np.max(np.abs(a.farfield - ff)) / scale < 1e-8
 
 
