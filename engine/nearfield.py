@@ -394,9 +394,14 @@ def inside_mask(mesh: PanelMesh, points: ArrayLike) -> NDArray[np.bool_]:
             tau = tau_all[panel * p : (panel + 1) * p]
             center = 0.5 * (za[panel] + zb[panel])
             half = 0.5 * (zb[panel] - za[panel])
-            arg[rows, panel] = _arg_change((tau - center) / half, (z[rows] - center) / half)
+            # a point exactly on a panel end or node has no angle there (NaN below)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                arg[rows, panel] = _arg_change((tau - center) / half, (z[rows] - center) / half)
         wind[idx] = arg.sum(axis=1) / (2 * np.pi)
-    return np.rint(wind) >= 1
+    # Points on the boundary itself have an undefined (NaN) or half-integer
+    # winding number; they are masked like inside points.
+    on_boundary = np.isnan(wind) | (np.abs(wind - np.rint(wind)) > 0.25)
+    return on_boundary | (np.rint(np.nan_to_num(wind)) >= 1)
 
 
 def _fields(

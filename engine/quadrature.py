@@ -165,6 +165,12 @@ def self_log_weights(p: int) -> FloatArray:
 
 
 def _arg_change(tn: ComplexArray, zn: ComplexArray) -> FloatArray:
+    # A target exactly on the panel has no angle there: NaN, never a warning.
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return _arg_change_unchecked(tn, zn)
+
+
+def _arg_change_unchecked(tn: ComplexArray, zn: ComplexArray) -> FloatArray:
     """Change of ``arg(tau - z)`` along the (interpolated) panel from -1 to 1.
 
     The path runs through the end points, the nodes and the point of the

@@ -17,7 +17,7 @@ from .fields import CrossSections
 from .mesh import PanelMesh
 from .problem import IncidentWave, Problem
 
-__all__ = ["FieldSamples", "FrequencySolution", "NearFieldResult", "RunResult", "RunSettings"]
+__all__ = ["FieldSamples", "FrequencySolution", "NearFieldResult", "RunResult", "RunSettings", "SurfaceTraces"]
 
 ComplexArray = NDArray[np.complex128]
 FloatArray = NDArray[np.float64]
@@ -49,6 +49,16 @@ class NearFieldResult:
     probes_m: FloatArray | None = None
 
 
+@dataclass(frozen=True)
+class SurfaceTraces:
+    """Boundary values for the surface files: nodes of ``mesh``, ``(n_nodes, n_incidents)``."""
+
+    mesh: PanelMesh
+    u: ComplexArray
+    dudn: ComplexArray
+    dudn_inside: ComplexArray | None
+
+
 @dataclass
 class FrequencySolution:
     """Everything computed at one frequency.
@@ -67,6 +77,10 @@ class FrequencySolution:
         On penetrable bodies, the normal derivative (same normal) just
         behind the boundary; NaN on impenetrable ones; None without
         penetrable bodies. ``u`` is the same on both sides.
+    rebuilt
+        With compressed corners, the boundary values on a mesh refined
+        toward every corner (point values there, where ``u`` and ``dudn``
+        hold weighted values); None otherwise.
     """
 
     frequency_hz: float
@@ -89,6 +103,13 @@ class FrequencySolution:
     warnings: list[str] = field(default_factory=list)
     near_field: NearFieldResult | None = None
     dudn_inside: ComplexArray | None = None
+    rebuilt: SurfaceTraces | None = None
+
+    def surface(self) -> SurfaceTraces:
+        """Point values on the boundary for the surface files (rebuilt next to corners)."""
+        if self.rebuilt is not None:
+            return self.rebuilt
+        return SurfaceTraces(self.mesh, self.u, self.dudn, self.dudn_inside)
 
     @property
     def k(self) -> float:

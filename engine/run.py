@@ -30,7 +30,7 @@ from .mesh import BoundaryContour, PanelMesh, build_panels
 from .problem import NearFieldRequest, Problem
 from .rcip_system import coarse_corner_mesh
 from .regions import Layout, check_corner_contrast, scene_layout
-from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings
+from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings, SurfaceTraces
 from .solve import (
     CONDITION_WARN,
     DenseLU,
@@ -41,7 +41,11 @@ from .solve import (
 )
 from .system import BoundarySystem, DiscreteSystem, Region
 
-__all__ = ["METHOD", "panel_wavelengths", "solve_problem"]
+__all__ = ["METHOD", "SURFACE_LEVELS", "panel_wavelengths", "solve_problem"]
+
+#: Refined levels on which the surface files show the density next to a compressed
+#: corner (the innermost panel is 2^-8 of the coarse one).
+SURFACE_LEVELS = 8
 
 #: What the engine does, in words, for reports.
 METHOD = (
@@ -295,6 +299,12 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         warnings.warn(msg, IllConditionedWarning, stacklevel=3)
         notes.append(msg)
     inside = solution.system.inside_traces(solution.unknowns)
+    rebuilt = None
+    if isinstance(solution.system, CompressedSystem):
+        system_f, x_f = solution.system.fine_system(solution.unknowns, [SURFACE_LEVELS] * len(mesh.corner_zones))
+        fu, fd = system_f.traces(x_f)
+        fi = system_f.inside_traces(x_f)
+        rebuilt = SurfaceTraces(system_f.mesh, fu, fd, None if fi is None else fi[1])
     near = None
     if problem.near_field is not None:
         t_near = time.perf_counter()
@@ -329,11 +339,12 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         warnings=notes,
         near_field=near,
         dudn_inside=None if inside is None else inside[1],
+        rebuilt=rebuilt,
     )
 
 
 def _depths(system: CompressedSystem, request: NearFieldRequest) -> list[int]:
-    """Levels to rebuild at each corner (at most 40).
+    """Levels to rebuild at each corner (at most 20).
 
     Deep enough that the innermost panel is below 0.4 of the distance from
     the tip to the closest requested point.
@@ -356,7 +367,7 @@ def _depths(system: CompressedSystem, request: NearFieldRequest) -> list[int]:
             continue
         dmin = float(np.min(np.hypot(*(allp - zone.point).T)))
         need = math.ceil(math.log2(size / max(0.4 * dmin, 1e-300))) if dmin < size else 0
-        out.append(int(min(40, max(0, need))))
+        out.append(int(min(20, max(0, need))))
     return out
 
 

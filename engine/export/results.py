@@ -56,7 +56,8 @@ def _conv(values: Any, convention: TimeConvention) -> np.ndarray:
 
 def _surface(result: RunResult, fr: FrequencySolution) -> dict[str, np.ndarray]:
     problem = result.problem
-    return surface_quantities(problem.field, fr.frequency_hz, fr.u, fr.dudn, problem.medium.density_kg_m3)
+    s = fr.surface()
+    return surface_quantities(problem.field, fr.frequency_hz, s.u, s.dudn, problem.medium.density_kg_m3)
 
 
 def write_run(
@@ -110,7 +111,8 @@ def write_run(
             mono_rows["echo_width_m"].append(mono_ew["m"])
             mono_rows["echo_width_db_m"].append(mono_ew["db_m"])
             mono_rows["echo_width_db_lambda"].append(mono_ew["db_lambda"])
-        mesh = fr.mesh
+        surf = fr.surface()
+        mesh = surf.mesh
         phys = _surface(result, fr)
         n = mesh.n_nodes
         for m, wave in enumerate(fr.incidents):
@@ -126,11 +128,11 @@ def write_run(
                 "normal_y": mesh.normals[:, 1],
                 "arc_weight_m": mesh.weights,
             }
-            u = _conv(fr.u[:, m], conv)
-            dudn = _conv(fr.dudn[:, m], conv)
+            u = _conv(surf.u[:, m], conv)
+            dudn = _conv(surf.dudn[:, m], conv)
             block.update({"u_re": u.real, "u_im": u.imag, "dudn_re": dudn.real, "dudn_im": dudn.imag})
-            if fr.dudn_inside is not None:
-                inner = _conv(fr.dudn_inside[:, m], conv)
+            if surf.dudn_inside is not None:
+                inner = _conv(surf.dudn_inside[:, m], conv)
                 block.update({"dudn_inside_re": inner.real, "dudn_inside_im": inner.imag})
             for name, values in phys.items():
                 v = _conv(values[:, m], conv)
@@ -287,13 +289,14 @@ def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention) 
     runs = []
     names = []
     for nf, fr in enumerate(result.frequencies):
-        mesh = fr.mesh
+        surf = fr.surface()
+        mesh = surf.mesh
         phys = _surface(result, fr)
         for m, wave in enumerate(fr.incidents):
             name = f"boundary_f{nf:03d}_i{m:03d}.vtu"
-            fields = {"u": fr.u[:, m], "dudn": fr.dudn[:, m]}
-            if fr.dudn_inside is not None:
-                fields["dudn_inside"] = fr.dudn_inside[:, m]
+            fields = {"u": surf.u[:, m], "dudn": surf.dudn[:, m]}
+            if surf.dudn_inside is not None:
+                fields["dudn_inside"] = surf.dudn_inside[:, m]
             fields.update({k: v[:, m] for k, v in phys.items()})
             write_boundary_vtu(
                 out_dir / name, mesh.nodes, mesh.normals, mesh.body_of_node, mesh.contour_of_node,
