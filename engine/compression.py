@@ -80,8 +80,6 @@ class CompressedSystem:
         self.local_system = local_system
         self.tolerance = tolerance
         self.cache = {} if cache is None else cache
-        self.compressions = 0
-        self.levels: list[int] = []
         self._blocks: list[tuple[IntArray, ComplexArray]] = []
         self._histories: list[dict[int, Any]] = []
 
@@ -117,7 +115,6 @@ class CompressedSystem:
     def _compress(self, zone: CornerZone, contour: int) -> tuple[ComplexArray, ComplexArray, dict[int, Any]]:
         f = self.formulations[contour]
         levels = self._levels(zone, contour)
-        self.levels.append(levels)
         signature = (type(f).__name__, getattr(f, "lam", None), getattr(f, "ratio", None),
                      tuple(complex(r.wavenumber) for r in self.regions), levels, self.mesh.p)
         key = zone.key(signature)
@@ -132,7 +129,6 @@ class CompressedSystem:
             levels=levels,
             history=history,
         )
-        self.compressions += 1
         result = (r_mat, a_star, history)
         if key is not None:
             self.cache[key] = result
@@ -144,7 +140,6 @@ class CompressedSystem:
         n = a.shape[0]
         self._blocks = []
         self._histories = []
-        self.levels = []
         stars = []
         for zone in self.zones:
             contour, idx = self._zone_unknowns(zone)

@@ -21,6 +21,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -177,7 +178,13 @@ class PanelMesh:
         return prev, nxt
 
     def subset(self, contours: Sequence[int]) -> PanelMesh:
-        """The mesh of the given contours only, in the given order (renumbered from 0)."""
+        """The mesh of the given contours only, in the given order (renumbered from 0).
+
+        Every contour in mesh order gives the mesh itself (local corner meshes,
+        which have no segments to rebuild from, rely on it).
+        """
+        if list(contours) == list(range(int(self.body_of_contour.size))):
+            return self
         order = np.concatenate([np.flatnonzero(self.contour_of_panel == c) for c in contours])
         renumber = {int(c): i for i, c in enumerate(contours)}
         return PanelMesh(
@@ -226,6 +233,15 @@ class PanelMesh:
 
 
 def transmission_exponent(interior_angle: float, flux_ratio: complex) -> float:
+    """Smallest exponent ``nu > 0`` of ``u ~ r^nu`` at a corner between two media (see ``_exponent``).
+
+    Cached: the mesher asks once per corner and refinement level.
+    """
+    return _exponent(round(float(interior_angle), 12), round(float(np.real(flux_ratio)), 12))
+
+
+@lru_cache(maxsize=256)
+def _exponent(interior_angle: float, flux_ratio: float) -> float:
     """Smallest exponent ``nu > 0`` of ``u ~ r^nu`` at a corner between two media.
 
     With ``u = r^nu f(phi)`` in the wedge of angle ``theta`` (coefficient
@@ -236,7 +252,7 @@ def transmission_exponent(interior_angle: float, flux_ratio: complex) -> float:
     (the dielectric-wedge analysis of Meixner, IEEE Trans. AP-20, 1972,
     from memory; derived again here). Equal media give ``nu = 1`` (smooth).
     """
-    b_in, b_out = 1.0, float(np.real(flux_ratio))
+    b_in, b_out = 1.0, flux_ratio
     half = 0.5 * interior_angle
     nu = np.linspace(1e-4, 1.0, 20001)
     best = 1.0

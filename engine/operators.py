@@ -274,25 +274,24 @@ def _maue(mesh: PanelMesh, k: complex, s_mat: ComplexArray, dt_mat: ComplexArray
         t_mat[:, blk] = dt_mat[:, blk] @ ds[a]
     for a in range(npan):
         t_mat[:, a * p : (a + 1) * p] += g[:, a : a + 1] * at_start[None, :]
+        if mesh.open_chain and a == 0:
+            continue  # an open chain has no panel before its first one
         b = int(prev[a])
         t_mat[:, b * p : (b + 1) * p] -= g[:, a : a + 1] * at_end[None, :]
     if mesh.open_chain:
-        _open_ends(mesh, k, t_mat, g[:, :1], at_end)
+        _end_joint(mesh, k, t_mat, at_end)
     add_normal_term(t_mat, s_mat, mesh.normals, complex(k * k))
     return t_mat
 
 
-def _open_ends(
-    mesh: PanelMesh, k: complex, t_mat: ComplexArray, g_start: ComplexArray, at_end: NDArray[np.float64]
-) -> None:
-    """Joint terms of an open chain of panels (a local corner mesh).
+def _end_joint(mesh: PanelMesh, k: complex, t_mat: ComplexArray, at_end: NDArray[np.float64]) -> None:
+    """The joint term at the far end of an open chain of panels (a local corner mesh).
 
-    ``neighbours`` closes every chain, so the point-mass term at the start
-    of the first panel has paired that panel's start value with the last
-    panel's end value, a joint that does not exist. Each open end instead
-    keeps the half of its true joint term that involves the chain's own
-    density; the other half involves the density beyond the chain, which in
-    the corner recursion belongs to the coarser level.
+    Each open end keeps the half of its joint term that involves the
+    chain's own density (at the start: the first panel's start value, added
+    in the joint loop; here: the last panel's end value); the other half
+    involves the density beyond the chain, which in the corner recursion
+    belongs to the coarser level.
     """
     p = mesh.p
     last = mesh.n_panels - 1
@@ -301,7 +300,7 @@ def _open_ends(
         mesh.nodes, mesh.normals, end_joint, np.zeros_like(end_joint), k,
         want_s=False, want_d=False, want_dp=False, want_dt=True,
     )
-    t_mat[:, last * p : (last + 1) * p] += (g_start - g_end) * at_end[None, :]
+    t_mat[:, last * p : (last + 1) * p] -= g_end * at_end[None, :]
 
 
 def add_normal_term(t_mat: ComplexArray, s_mat: ComplexArray, normals: NDArray[np.float64], k2: complex) -> None:

@@ -214,10 +214,7 @@ class BoundarySystem:
         out = np.zeros((n, n), dtype=complex)
         for region in self.regions:
             slots = self._stacked(region)
-            members = [c for c, _ in region.contours]
-            # a region bounded by every contour in mesh order uses the mesh itself
-            # (local corner meshes have no segments to rebuild a subset from)
-            sub = self.mesh if members == list(range(len(self.formulations))) else self.mesh.subset(members)
+            sub = self.mesh.subset([c for c, _ in region.contours])
             p_u = np.concatenate([s.u for s in slots])
             p_dn = np.concatenate([s.dudn for s in slots])
             ops = assemble_operators(sub, region.wavenumber, **self._needs(p_u, p_dn))
