@@ -429,10 +429,9 @@ def _body_material(br: _Reader, field_kind: str, materials: dict[str, Material],
         material = materials[key]
     else:
         material = _material(br, name)
-    if field_kind == "acoustic" and (material.sound_speed_m_s is None or material.density_kg_m3 is None):
+    if field_kind == "acoustic" and not material.has_sound:
         raise br.fail("material", f"material {material.name!r} needs sound_speed_m_s and density_kg_m3 for sound")
-    if field_kind != "acoustic" and material.sound_speed_m_s is not None and not br.has("eps_r") \
-            and material.eps_r == 1.0 and material.mu_r == 1.0 and material.loss_tangent == 0.0:
+    if field_kind != "acoustic" and not material.has_em:
         raise br.fail("material", f"material {material.name!r} has no electromagnetic values (eps_r, mu_r)")
     return material
 

@@ -131,6 +131,18 @@ class Material:
     density_kg_m3: float | None = None
     attenuation_db_per_wavelength: float = 0.0
 
+    @property
+    def has_sound(self) -> bool:
+        """True when the material has the values sound needs (speed and density)."""
+        return self.sound_speed_m_s is not None and self.density_kg_m3 is not None
+
+    @property
+    def has_em(self) -> bool:
+        """False for a fluid given only by its acoustic values (every EM value at vacuum's)."""
+        vacuum = (self.eps_r == 1.0 and self.mu_r == 1.0 and self.loss_tangent == 0.0
+                  and self.conductivity_s_m == 0.0)
+        return not (vacuum and self.sound_speed_m_s is not None)
+
     def permittivity(self, frequency_hz: float) -> complex:
         """Complex relative permittivity at ``frequency_hz`` (exp(+j w t))."""
         omega = 2 * math.pi * frequency_hz

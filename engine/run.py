@@ -300,23 +300,23 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         notes.append(msg)
     inside = solution.system.inside_traces(solution.unknowns)
     rebuilt = None
+    near_system: DiscreteSystem = solution.system
     if isinstance(solution.system, CompressedSystem):
-        system_f, x_f = solution.system.fine_system(solution.unknowns, [SURFACE_LEVELS] * len(mesh.corner_zones))
-        fu, fd = system_f.traces(x_f)
-        fi = system_f.inside_traces(x_f)
-        rebuilt = SurfaceTraces(system_f.mesh, fu, fd, None if fi is None else fi[1])
+        # Next to a corner the weighted values are not the density: rebuild it once on
+        # the refined levels, for the surface files and as deep as the closest field
+        # point of the near-field request needs.
+        depths = [SURFACE_LEVELS] * len(mesh.corner_zones)
+        if problem.near_field is not None:
+            depths = [max(a, b) for a, b in zip(depths, _depths(solution.system, problem.near_field))]
+        near_system, x_f = solution.system.fine_system(solution.unknowns, depths)
+        fu, fd = near_system.traces(x_f)
+        fi = near_system.inside_traces(x_f)
+        rebuilt = SurfaceTraces(near_system.mesh, fu, fd, None if fi is None else fi[1])
     near = None
     if problem.near_field is not None:
         t_near = time.perf_counter()
-        system, nu, nd, ni = solution.system, u, dudn, None if inside is None else inside[1]
-        if isinstance(system, CompressedSystem):
-            # next to a corner the weighted values are not the density: rebuild it
-            # on the refined levels, as deep as the closest field point needs
-            system, x_fine = system.fine_system(solution.unknowns, _depths(system, problem.near_field))
-            nu, nd = system.traces(x_fine)
-            fine_inside = system.inside_traces(x_fine)
-            ni = None if fine_inside is None else fine_inside[1]
-        near = _near_fields(scene, system, nu, nd, ni)
+        traces = rebuilt or SurfaceTraces(mesh, u, dudn, None if inside is None else inside[1])
+        near = _near_fields(scene, near_system, traces.u, traces.dudn, traces.dudn_inside)
         timings["near_field_s"] = time.perf_counter() - t_near
     return FrequencySolution(
         frequency_hz=freq,

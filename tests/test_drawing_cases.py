@@ -68,7 +68,8 @@ def test_bodies_picked_by_layer_or_point_from_sample_drawings():
 
 def test_fairing_sample_meets_its_tolerance():
     # The demo's penetrable sample: a PEC mast inside a lossy fairing. The absorbed
-    # power two ways (C_ext - C_s and the flux into the fairing) must agree.
+    # power two ways (C_ext - C_s by the 2D optical theorem, and the flux into the
+    # fairing) must agree (energy conservation; Colton & Kress, ch. 3, from memory).
     from sectionwave.engine import load_case
 
     samples = Path(__file__).resolve().parents[1] / "samples"
