@@ -134,19 +134,28 @@ class CompressedSystem:
             self.cache[key] = result
         return result
 
+    def zone_blocks(self) -> list[tuple[IntArray, ComplexArray, ComplexArray]]:
+        """Per corner zone: its unknowns, the compressed inverse ``R`` and the zone's own block ``A*``.
+
+        ``I + K° R`` is ``x + (A - I) R x + (I - A*) (R x)`` on each zone, with
+        ``A`` the coarse system matrix: how a matrix-free solver applies it.
+        """
+        self._blocks = []
+        self._histories = []
+        out = []
+        for zone in self.zones:
+            contour, idx = self._zone_unknowns(zone)
+            r_mat, a_star, history = self._compress(zone, contour)
+            self._blocks.append((idx, r_mat))
+            self._histories.append(history)
+            out.append((idx, r_mat, a_star))
+        return out
+
     def dense_matrix(self) -> ComplexArray:
         """``I + K° R``, built in place of the coarse system matrix."""
         a = self.base.dense_matrix()
         n = a.shape[0]
-        self._blocks = []
-        self._histories = []
-        stars = []
-        for zone in self.zones:
-            contour, idx = self._zone_unknowns(zone)
-            r_mat, a_star, history = self._compress(zone, contour)
-            stars.append((idx, a[np.ix_(idx, idx)] - a_star))
-            self._blocks.append((idx, r_mat))
-            self._histories.append(history)
+        stars = [(idx, a[np.ix_(idx, idx)] - a_star) for idx, _, a_star in self.zone_blocks()]
         diag = np.diag_indices(n)
         a[diag] -= 1.0  # K° = A - A* with A* = I off the zones ...
         for idx, block in stars:
@@ -159,11 +168,7 @@ class CompressedSystem:
     def recover(self, x: ComplexArray) -> ComplexArray:
         """The weighted unknowns ``R x~`` (``x~`` off the zones)."""
         if not self._blocks:
-            for zone in self.zones:
-                contour, idx = self._zone_unknowns(zone)
-                r_mat, _, history = self._compress(zone, contour)
-                self._blocks.append((idx, r_mat))
-                self._histories.append(history)
+            self.zone_blocks()
         out = np.array(x, dtype=complex, copy=True)
         for idx, r_mat in self._blocks:
             out[idx] = r_mat @ x[idx]

@@ -45,7 +45,7 @@ from .quadrature import (
     self_log_weights,
 )
 
-__all__ = ["Operators", "assemble_operators", "near_corrections", "near_pairs"]
+__all__ = ["Operators", "assemble_operators", "near_corrections", "near_pairs", "self_panel_blocks"]
 
 ComplexArray = NDArray[np.complex128]
 
@@ -122,12 +122,27 @@ def assemble_operators(
 
 
 def _self_panel_rule(mesh: PanelMesh, k: complex, mats: tuple[ComplexArray, ...]) -> None:
-    """Overwrite the diagonal blocks with the parametric kernel-split rule.
+    """Overwrite the diagonal blocks of the dense matrices with the self rule (``self_panel_blocks``)."""
+    p, npan = mesh.p, mesh.n_panels
+    stacks = tuple(
+        np.stack([m[i * p : (i + 1) * p, i * p : (i + 1) * p] for i in range(npan)])
+        if m.shape[0] else np.zeros((0, p, p), dtype=complex)
+        for m in mats
+    )
+    self_panel_blocks(mesh, k, stacks)
+    for mat, stack in zip(mats, stacks):
+        for i in range(npan if mat.shape[0] else 0):
+            mat[i * p : (i + 1) * p, i * p : (i + 1) * p] = stack[i]
+
+
+def self_panel_blocks(mesh: PanelMesh, k: complex, blocks: tuple[ComplexArray, ...]) -> None:
+    """Turn plain own-panel blocks ``(n_panels, p, p)`` of S, D, D', Dt into the self rule, in place.
 
     On its own panel a kernel is ``A log|t - t_i| + c / (t - t_i) + B`` in
     the panel parameter, with ``B`` smooth; the log and (for Dt) the
     principal-value parts get product weights, ``B`` Gauss weights, and
-    ``B`` at the target itself is its analytic limit.
+    ``B`` at the target itself is its analytic limit. A block given with
+    zero length is skipped.
     """
     p, npan = mesh.p, mesh.n_panels
     x, _ = gauss_legendre(p)
@@ -164,20 +179,16 @@ def _self_panel_rule(mesh: PanelMesh, k: complex, mats: tuple[ComplexArray, ...]
         -accel_along / (4 * np.pi * speed**2),
     )
     pv_coef = (None, None, None, 1.0 / (2 * np.pi * speed))
-    for mat, coef, rest, cpv in zip(mats, coefs, diag_rest, pv_coef):
-        if not mat.shape[0]:
+    for stack, coef, rest, cpv in zip(blocks, coefs, diag_rest, pv_coef):
+        if not stack.shape[0]:
             continue
-        for i in range(npan):
-            sl = slice(i * p, (i + 1) * p)
-            block = mat[sl, sl]  # plain kernel * weight, zero on the diagonal
-            block -= coef[i] * log_dt * omega[i][None, :]
-            if cpv is not None:
-                block -= cpv[i][:, None] * inv_dt * omega[i][None, :]
-            block[eye] = rest[i] * omega[i]
-            block += coef[i] * ws * speed[i][None, :]
-            if cpv is not None:
-                block += cpv[i][:, None] * wc * speed[i][None, :]
-            mat[sl, sl] = block
+        stack -= coef * log_dt[None] * omega[:, None, :]
+        if cpv is not None:
+            stack -= cpv[:, :, None] * inv_dt[None] * omega[:, None, :]
+        stack[:, eye] = rest * omega
+        stack += coef * ws[None] * speed[:, None, :]
+        if cpv is not None:
+            stack += cpv[:, :, None] * wc[None] * speed[:, None, :]
 
 
 def _near_panel_rule(mesh: PanelMesh, k: complex, mats: tuple[ComplexArray, ...]) -> None:

@@ -158,6 +158,14 @@ class BoundarySystem:
             start += n
         return [_Slot.join(parts) for _, parts in sorted(per_slot.items())]
 
+    def region_slots(self, region: Region) -> list[_Slot]:
+        """Per unknown slot, the region's nodes carrying it.
+
+        Each slot holds global unknowns, positions among the region's nodes
+        (``mesh.subset`` of its contours, in order), signs, column maps and row weights.
+        """
+        return self._stacked(region)
+
     def _simple_vectors(self) -> tuple[ComplexArray, ComplexArray, ComplexArray, ComplexArray]:
         """Per node: row weights ``c1, c2`` and column maps ``p_u, p_dudn`` (simple systems)."""
         maps = [self._side_map(c, 1, self.k) for c in range(len(self.formulations))]
@@ -178,13 +186,13 @@ class BoundarySystem:
         """
         if self.is_simple:
             _, _, p_u, p_dudn = self._simple_vectors()
-            return float(sum(self._needs(p_u, p_dudn).values()))
+            return float(sum(self.needs(p_u, p_dudn).values()))
         n = max(self.n_unknowns, 1)
         worst = 0.0
         for region in self.regions:
             slots = self._stacked(region)
             m = sum(self._nodes_of[c].size for c, _ in region.contours)
-            need = self._needs(np.concatenate([s.u for s in slots]), np.concatenate([s.dudn for s in slots]))
+            need = self.needs(np.concatenate([s.u for s in slots]), np.concatenate([s.dudn for s in slots]))
             block = max(s.local.size for s in slots)
             worst = max(worst, (sum(need.values()) * m * m + 4 * block * block) / (n * n))
         return 1.0 + worst
@@ -199,12 +207,13 @@ class BoundarySystem:
         """
         if self.is_simple:
             c1, c2, p_u, p_dudn = self._simple_vectors()
-            ops = assemble_operators(self.mesh, self.k, **self._needs(p_u, p_dudn))
+            ops = assemble_operators(self.mesh, self.k, **self.needs(p_u, p_dudn))
             return _combine_in_place(ops, c1, c2, p_u, p_dudn)
         return self._general_matrix()
 
     @staticmethod
-    def _needs(p_u: ComplexArray, p_dudn: ComplexArray) -> dict[str, bool]:
+    def needs(p_u: ComplexArray, p_dudn: ComplexArray) -> dict[str, bool]:
+        """Which operators a set of column maps needs (keyword arguments of ``assemble_operators``)."""
         has_u = bool(np.any(p_u != 0))
         has_dudn = bool(np.any(p_dudn != 0))
         return {"need_s": True, "need_d": has_u, "need_dp": has_dudn, "need_t": has_u}
@@ -217,7 +226,7 @@ class BoundarySystem:
             sub = self.mesh.subset([c for c, _ in region.contours])
             p_u = np.concatenate([s.u for s in slots])
             p_dn = np.concatenate([s.dudn for s in slots])
-            ops = assemble_operators(sub, region.wavenumber, **self._needs(p_u, p_dn))
+            ops = assemble_operators(sub, region.wavenumber, **self.needs(p_u, p_dn))
             for row in slots:
                 for col in slots:
                     block = _region_block(ops, row.local, col.local, row.e1, row.e2,
