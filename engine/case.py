@@ -32,7 +32,8 @@ The schema (keys may be added, never renamed)::
                   probes_csv = "probes.csv", from_deg = ... (plane waves to map;
                   default all incident waves)
     [solver]      tolerance = 1e-8, nodes_per_panel = 16, max_panel_wavelengths = auto,
-                  max_refinements = 10, corners = "compressed" | "graded"
+                  max_refinements = 10, corners = "compressed" | "graded",
+                  method = "auto" | "dense" | "fast"
     [output]      time_convention = "engineering" | "physics", plots = true, vtk = true
 """
 
@@ -102,7 +103,7 @@ KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
     "far_field": ("angles_deg",),
     "near_field": ("x_m", "y_m", "spacing_m", "count", "probes_csv", "from_deg"),
-    "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements", "corners"),
+    "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements", "corners", "method"),
     "output": ("time_convention", "plots", "vtk"),
 }
 SHAPE_KEYS: dict[str, tuple[str, ...]] = {
@@ -527,8 +528,10 @@ def _solver(sr: _Reader) -> SolverOptions:
     if isinstance(refinements, bool) or not isinstance(refinements, int) or not 0 <= refinements <= 20:
         raise sr.fail("max_refinements", f"must be an integer from 0 to 20, got {refinements!r}")
     corners = sr.text("corners", "compressed", choices=("compressed", "graded"))
+    method = sr.text("method", "auto", choices=("auto", "dense", "fast"))
     sr.finish(KNOWN_KEYS["solver"])
-    return SolverOptions(tol, int(p), mpw, int(refinements), cast(Literal["compressed", "graded"], corners))
+    return SolverOptions(tol, int(p), mpw, int(refinements), cast(Literal["compressed", "graded"], corners),
+                         cast(Literal["auto", "dense", "fast"], method))
 
 
 def _output(

@@ -264,6 +264,7 @@ class SolverOptions:
     max_panel_wavelengths: float | None = None
     max_refinements: int = 10
     corners: Literal["compressed", "graded"] = "compressed"
+    method: Literal["auto", "dense", "fast"] = "auto"
 
 
 @dataclass(frozen=True)
