@@ -31,6 +31,16 @@ class OutputOptions:
         The drawing's cleaning audit (None without a drawing).
     notes
         The case's own notes (for example ignored cavities).
+    surface_csv, vtk_per_incidence
+        Write ``surface.csv`` (one row per boundary node, incident wave and
+        frequency: the bulkiest table) and one boundary ``.vtu`` per
+        incident wave (off: one per frequency, holding every incident wave).
+    warnings
+        Guardrail findings (``code``, ``message``, ``frequency_hz``) for
+        ``summary.json``; see ``engine.guardrails``.
+    accept_warnings
+        The case accepts a run that ends with guardrail findings (the
+        command line then exits 0 instead of 3).
     """
 
     time_convention: TimeConvention = "engineering"
@@ -40,3 +50,7 @@ class OutputOptions:
     case: str = "<case>"
     drawing_audit: dict[str, Any] | None = None
     notes: tuple[str, ...] = field(default_factory=tuple)
+    surface_csv: bool = True
+    vtk_per_incidence: bool = True
+    warnings: tuple[dict[str, Any], ...] = field(default_factory=tuple)
+    accept_warnings: bool = False

@@ -249,6 +249,7 @@ def summary_dict(
         },
         "drawing_audit": options.drawing_audit,
         "notes": list(options.notes),
+        "warnings": list(options.warnings),
         "frequencies": freqs,
         "estimated_error_max": _finite(max((fr.estimated_error for fr in result.frequencies), default=math.nan)),
         "elapsed_s": result.elapsed_s,
