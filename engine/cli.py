@@ -165,6 +165,8 @@ def _check_out(out: Path, force: bool) -> None:
 
 
 def _run(args: argparse.Namespace) -> int:
+    from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
+
     from . import load_case, solve_problem, write_run
     from .guardrails import check_problem, check_result, from_warnings
     from .solve import ProblemTooLargeError
@@ -186,13 +188,13 @@ def _run(args: argparse.Namespace) -> int:
                 raise _BadInput(
                     f"{case.output.case}: {exc} (case keys: [wave] frequency_hz, [solver] tolerance)"
                 ) from None
+            except SectionwaveError as exc:
+                raise _BadInput(f"{case.output.case}: {exc}") from None
             finally:
                 progress.close()
         findings += [f for f in from_warnings(caught) + check_result(result) if f not in findings]
         output = replace(case.output, warnings=tuple(f.to_dict() for f in findings))
         write_run(result, out, output, force=args.force, convention=args.time_convention)
-    from sectionwave.importers.errors import SectionwaveWarning
-
     for w in caught:
         if not issubclass(w.category, SectionwaveWarning):
             _say(args.quiet, f"warning: {w.message}")

@@ -18,7 +18,7 @@ codes
     ``under_resolved``
         The panel settings (``nodes_per_panel``, ``max_panel_wavelengths``)
         resolve a wave only to about :func:`panel_resolution`, coarser than
-        the tolerance, so the first mesh cannot meet it.
+        the tolerance, and the run missed the tolerance: the likely cause.
     ``ill_conditioned``
         The system's estimated condition number is above
         ``solve.CONDITION_WARN``: digits may be lost.
@@ -65,6 +65,7 @@ __all__ = [
     "from_warnings",
     "is_lossless",
     "panel_resolution",
+    "panel_settings_finding",
 ]
 
 #: Every guardrail code, in the order the glossary explains them.
@@ -200,7 +201,7 @@ def _likely_frequency(problem: Problem, size_m: float, frequency_hz: float) -> s
 
 
 def check_problem(problem: Problem) -> list[Guardrail]:
-    """Findings about a problem before it is solved (electrical size, panel settings)."""
+    """Findings about a problem before it is solved (its electrical size)."""
     found: list[Guardrail] = []
     size, _ = electrical_size(problem)
     for f in problem.frequencies_hz:
@@ -222,21 +223,27 @@ def check_problem(problem: Problem) -> list[Guardrail]:
                 "units (mm read as m?) and that frequency_hz is in Hz",
                 f,
             ))
-    s = problem.solver
-    if s.max_panel_wavelengths is not None or s.nodes_per_panel != 16:
-        h = _panel_wavelengths(problem)
-        err = panel_resolution(s.nodes_per_panel, h)
-        if err > s.tolerance:
-            fit = h
-            while fit > 1e-3 and panel_resolution(s.nodes_per_panel, fit) > s.tolerance:
-                fit *= 0.5
-            found.append(Guardrail(
-                "under_resolved",
-                f"{s.nodes_per_panel} nodes per panel of up to {h:g} wavelengths resolve a wave to about "
-                f"{err:.1e}, coarser than the tolerance {s.tolerance:.1e}: the first mesh cannot meet it and "
-                f"refinement must; set [solver] max_panel_wavelengths <= {fit:.3g} or raise nodes_per_panel",
-            ))
     return found
+
+
+def panel_settings_finding(problem: Problem) -> Guardrail | None:
+    """An ``under_resolved`` finding when user-set panel settings resolve a wave more coarsely than the tolerance."""
+    s = problem.solver
+    if s.max_panel_wavelengths is None and s.nodes_per_panel == 16:
+        return None  # the engine's own defaults are sized for the tolerance
+    h = _panel_wavelengths(problem)
+    err = panel_resolution(s.nodes_per_panel, h)
+    if err <= s.tolerance:
+        return None
+    fit = h
+    while fit > 1e-3 and panel_resolution(s.nodes_per_panel, fit) > s.tolerance:
+        fit *= 0.5
+    return Guardrail(
+        "under_resolved",
+        f"{s.nodes_per_panel} nodes per panel of up to {h:g} wavelengths resolve a wave to about {err:.1e}, "
+        f"coarser than the tolerance {s.tolerance:.1e}, and the tolerance was missed; set [solver] "
+        f"max_panel_wavelengths <= {fit:.3g} or raise nodes_per_panel",
+    )
 
 
 def is_lossless(problem: Problem) -> bool:
@@ -257,14 +264,21 @@ def is_lossless(problem: Problem) -> bool:
 def check_result(result: RunResult) -> list[Guardrail]:
     """Findings about a solved run that the engine's warnings do not already carry.
 
+    User-set panel settings too coarse for the tolerance, when the tolerance
+    was missed (``under_resolved``: the likely cause, and the fix).
+
     The optical theorem: for a lossless scene the extinction width equals
     the scattering width (Balanis, *Advanced Engineering Electromagnetics*,
     ch. 11, from memory); a residual above the tolerance is reported.
     """
     found: list[Guardrail] = []
+    tol = result.settings.tolerance
+    if any(fr.estimated_error > tol for fr in result.frequencies):
+        coarse = panel_settings_finding(result.problem)
+        if coarse is not None:
+            found.append(coarse)
     if not is_lossless(result.problem):
         return found
-    tol = result.settings.tolerance
     for fr in result.frequencies:
         if fr.cross_sections is None:
             continue
