@@ -106,7 +106,8 @@ KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "far_field": ("angles_deg",),
     "near_field": ("x_m", "y_m", "spacing_m", "count", "probes_csv", "from_deg"),
     "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements", "corners"),
-    "output": ("time_convention", "plots", "vtk", "surface_csv", "vtk_per_incidence"),
+    "output": ("time_convention", "plots", "vtk", "surface_csv", "vtk_per_incidence", "plot_frequencies_hz",
+               "plot_from_deg", "field_map"),
     "run": ("accept_warnings",),
     "incident": ("kind", "name", "from_deg", "position_m"),
     "materials": MATERIAL_KEYS,
@@ -688,6 +689,9 @@ def _output(
     for key, val in switches.items():
         if not isinstance(val, bool):
             raise orr.fail(key, f"must be true or false, got {val!r}")
+    plot_f = orr.values("plot_frequencies_hz", positive=True) if orr.has("plot_frequencies_hz") else None
+    plot_a = orr.values("plot_from_deg") if orr.has("plot_from_deg") else None
+    field_map = orr.text("field_map", "abs", choices=("abs", "db", "real"))
     orr.finish(KNOWN_KEYS["output"])
     return OutputOptions(
         time_convention=cast(TimeConvention, convention),  # checked against TIME_CONVENTIONS above
@@ -695,6 +699,9 @@ def _output(
         vtk=switches["vtk"],
         surface_csv=switches["surface_csv"],
         vtk_per_incidence=switches["vtk_per_incidence"],
+        plot_frequencies_hz=plot_f,
+        plot_from_deg=plot_a,
+        field_map=cast(Literal["abs", "db", "real"], field_map),
         title=title,
         case=source,
         drawing_audit=audit,

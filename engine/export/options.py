@@ -7,7 +7,7 @@ never sees it.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Literal
 
 from ..conventions import TimeConvention
 
@@ -38,6 +38,13 @@ class OutputOptions:
     warnings
         Guardrail findings (``code``, ``message``, ``frequency_hz``) for
         ``summary.json``; see ``engine.guardrails``.
+    plot_frequencies_hz, plot_from_deg
+        Which frequencies and plane-wave directions the plots draw (None:
+        an even spread of at most ``results.MAX_CURVES`` curves, with a
+        note naming what was left out).
+    field_map
+        Near-field maps show ``abs`` (magnitude), ``db`` (20 log10 of it)
+        or ``real`` (the field at time zero).
     accept_warnings
         The case accepts a run that ends with guardrail findings (the
         command line then exits 0 instead of 3).
@@ -54,3 +61,6 @@ class OutputOptions:
     vtk_per_incidence: bool = True
     warnings: tuple[dict[str, Any], ...] = field(default_factory=tuple)
     accept_warnings: bool = False
+    plot_frequencies_hz: tuple[float, ...] | None = None
+    plot_from_deg: tuple[float, ...] | None = None
+    field_map: Literal["abs", "db", "real"] = "abs"
