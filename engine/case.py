@@ -96,6 +96,8 @@ MATERIAL_KEYS = (
     "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
     "sound_speed_m_s", "density_kg_m3", "attenuation_db_per_wavelength",
 )
+#: Most values a {start, stop, count} range may ask for.
+MAX_RANGE_COUNT = 1_000_000
 #: Every key each table allows (for the "known keys" list of an error).
 KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "": ("title", "wave", "geometry", "materials", "body", "incident", "far_field", "near_field", "solver",
@@ -213,7 +215,7 @@ class _Reader:
         if value is None:
             raise self.fail(key, "is required (a number)")
         value = self._with_units(key, value)
-        if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+        if not _is_finite_number(value):
             raise self.fail(key, f"must be a finite number, got {value!r}")
         if positive and value <= 0:
             raise self.fail(key, f"must be positive, got {value!r}")
@@ -250,13 +252,13 @@ class _Reader:
             if set(value) != {"start", "stop", "count"}:
                 raise self.fail(key, f"a range needs exactly start, stop and count, got {sorted(value)}")
             count = value["count"]
-            if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-                raise self.fail(key, f"count must be a positive integer, got {count!r}")
+            if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= MAX_RANGE_COUNT:
+                raise self.fail(key, f"count must be an integer from 1 to {MAX_RANGE_COUNT}, got {count!r}")
             start, stop = self._with_units(key, value["start"]), self._with_units(key, value["stop"])
             for v in (start, stop):
                 if not _is_finite_number(v):
                     raise self.fail(key, f"start and stop must be finite numbers, got {v!r}")
-            out = tuple(float(v) for v in np.linspace(start, stop, count))
+            out = tuple(float(v) for v in np.linspace(float(start), float(stop), count))
         elif isinstance(value, list):
             if not value:
                 raise self.fail(key, "is an empty list")
@@ -278,7 +280,7 @@ class _Reader:
 
     def _scalar(self, key: str, v: Any) -> float:
         v = self._with_units(key, v, "must hold finite numbers: each ")
-        if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v):
+        if not _is_finite_number(v):
             raise self.fail(key, f"must hold finite numbers, got {v!r}")
         return float(v)
 
@@ -295,7 +297,12 @@ class _Reader:
 
 
 def _is_finite_number(v: Any) -> bool:
-    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+    if not isinstance(v, int | float) or isinstance(v, bool):
+        return False
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:  # an integer beyond the float range
+        return False
 
 
 def _tables(r: _Reader, key: str, value: Any) -> list[Mapping[str, Any]]:
@@ -720,8 +727,11 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
             raise r.fail("spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]")
         if r.has("spacing_m"):
             h = r.number("spacing_m", positive=True)
-            nx = int(math.floor((xr[1] - xr[0]) / h + 1e-9)) + 1
-            ny = int(math.floor((yr[1] - yr[0]) / h + 1e-9)) + 1
+            sx, sy = (xr[1] - xr[0]) / h, (yr[1] - yr[0]) / h
+            if not (math.isfinite(sx) and math.isfinite(sy)) or (sx + 1) * (sy + 1) > 25_000_000:
+                raise r.fail("spacing_m", f"asks for {sx + 1:.3g} x {sy + 1:.3g} points; at most 25 million")
+            nx = int(math.floor(sx + 1e-9)) + 1
+            ny = int(math.floor(sy + 1e-9)) + 1
         else:
             cnt = r.get("count")
             if not (isinstance(cnt, list) and len(cnt) == 2
@@ -734,7 +744,10 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
         x = np.linspace(xr[0], xr[1], nx)
         y = np.linspace(yr[0], yr[1], ny)
     if r.has("probes_csv"):
-        path = Path(r.text("probes_csv"))
+        text = r.text("probes_csv")
+        if "\x00" in text or not text.strip():
+            raise r.fail("probes_csv", f"is not a usable file name: {text!r}; give the CSV file's path")
+        path = Path(text)
         if not path.is_absolute() and base_dir is not None:
             path = base_dir / path
         probes = _read_probes(r, path)
@@ -798,9 +811,10 @@ def _check_disjoint(source: str, bodies: list[Scatterer]) -> None:
             else:
                 c = polys[i].boundary.intersection(polys[j].boundary)
                 c = c.representative_point() if not c.is_empty else polys[i].intersection(polys[j]).representative_point()
+                near = f"near ({c.x:.6g}, {c.y:.6g}) m" if not c.is_empty else "(no finite point found)"
                 raise CaseError(
                     f"{source}: bodies {bodies[i].name!r} and {bodies[j].name!r} overlap or touch "
-                    f"near ({c.x:.6g}, {c.y:.6g}) m; move them apart or merge them into one body "
+                    f"{near}; move them apart or merge them into one body "
                     "(a body may lie inside a penetrable one without touching it)"
                 )
 
@@ -809,7 +823,10 @@ def _load_geometry(r: _Reader, base_dir: Path | None) -> tuple[Any, dict[str, An
     """Read and clean the case's drawing: ``[(layer, Body), ...]`` and the audit."""
     from sectionwave.importers import clean_drawing, read_drawing
 
-    path = Path(r.text("file"))
+    text = r.text("file")
+    if "\x00" in text or not text.strip():
+        raise r.fail("file", f"is not a usable file name: {text!r}; give the drawing's path")
+    path = Path(text)
     if not path.is_absolute() and base_dir is not None:
         path = base_dir / path
     units = r.text("units") if r.has("units") else None
@@ -818,9 +835,13 @@ def _load_geometry(r: _Reader, base_dir: Path | None) -> tuple[Any, dict[str, An
     if not path.exists():
         where = f" (relative to the case file's folder {base_dir})" if base_dir is not None else ""
         raise r.fail("file", f"the drawing {path} does not exist{where}; correct the path in [geometry] file")
-    drawing = read_drawing(path, units=units)
-    cleaned = clean_drawing(drawing, gap_tol_m=gap)
-    cleaned.raise_for_errors()
+    try:
+        drawing = read_drawing(path, units=units)
+        cleaned = clean_drawing(drawing, gap_tol_m=gap)
+        cleaned.raise_for_errors()
+    except SectionwaveError as exc:
+        # the drawing's own message (file, place, fix), prefixed with the case file and key
+        raise type(exc)(f"{r.source}: [geometry.file] {exc}") from None
     audit = {"file": str(path), "units": drawing.units, **cleaned.audit.to_dict()}
     audit["unit_notes"] = [n for n in drawing.notes if "overridden by units" in n or "user units taken as" in n]
     return list(zip(cleaned.layers, cleaned.bodies, strict=True)), audit
@@ -866,9 +887,9 @@ def load_case(path: str | Path) -> Case:
     try:
         doc = tomllib.loads(data.decode("utf-8"))
     except UnicodeDecodeError as exc:
-        raise CaseError(f"{source}: not UTF-8 text (byte {exc.start})") from None
+        raise CaseError(f"{source}: not UTF-8 text (byte {exc.start}); save the case file as UTF-8") from None
     except tomllib.TOMLDecodeError as exc:
-        raise CaseError(f"{source}: invalid TOML: {exc}") from None
+        raise CaseError(f"{source}: invalid TOML: {exc}; correct the syntax there") from None
     case = parse_case(doc, source=source, base_dir=base)
     refuse_absurd(case)
     return case

@@ -176,8 +176,12 @@ def _run(args: argparse.Namespace) -> int:
     for note in case.output.notes:
         if "overridden by units" in note or "user units taken as" in note:
             _say(args.quiet, f"note: {note}")
-    with _locked(out):
-        _check_out(out, args.force)
+    with contextlib.ExitStack() as stack:
+        try:
+            stack.enter_context(_locked(out))
+            _check_out(out, args.force)
+        except _BadInput as exc:
+            raise _BadInput(f"{case.output.case}: {exc}") from None
         findings = check_problem(case.problem)
         progress = _Progress(args.quiet)
         with warnings.catch_warnings(record=True) as caught:

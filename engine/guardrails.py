@@ -164,7 +164,8 @@ def estimate_panels(problem: Problem) -> PanelEstimate:
         for s in problem.scatterers:
             lam = _shortest_wavelength(problem, s, f)
             per = s.body.outer.perimeter() + sum(c.perimeter() for c in s.body.holes)
-            count += per / (h * lam)
+            step = h * lam
+            count += per / step if step > 0 else math.inf
             lam_min = min(lam_min, lam)
             perimeter += per
         if best is None or count > best.panels:

@@ -145,9 +145,9 @@ def test_bad_frequencies(value, fragment):
     [
         ({"start": 1e9, "stop": 2e9}, "a range needs exactly start, stop and count, got ['start', 'stop']"),
         ({"start": 1e9, "stop": 2e9, "count": 3, "step": 1}, "a range needs exactly start, stop and count"),
-        ({"start": 1e9, "stop": 2e9, "count": 0}, "count must be a positive integer, got 0"),
-        ({"start": 1e9, "stop": 2e9, "count": 2.5}, "count must be a positive integer, got 2.5"),
-        ({"start": 1e9, "stop": 2e9, "count": True}, "count must be a positive integer, got True"),
+        ({"start": 1e9, "stop": 2e9, "count": 0}, "count must be an integer from 1 to 1000000, got 0"),
+        ({"start": 1e9, "stop": 2e9, "count": 2.5}, "count must be an integer from 1 to 1000000, got 2.5"),
+        ({"start": 1e9, "stop": 2e9, "count": True}, "count must be an integer from 1 to 1000000, got True"),
         ({"start": "a", "stop": 2e9, "count": 3}, "or a frequency with units such as \"9.4 GHz\", got 'a'"),
         ({"start": 1e9, "stop": float("inf"), "count": 3}, "start and stop must be finite numbers"),
     ],
