@@ -12,11 +12,17 @@ case
 number, list or range
     Frequencies and angles accept ``9.4e9``, ``[1e9, 2e9]`` or
     ``{ start = 0, stop = 360, count = 73 }`` (both ends included).
+number with units
+    Any key ending in a unit (``_hz``, ``_m``, ``_deg``, ``_m_s``,
+    ``_kg_m3``, ``_s_m``) also takes text with units, read by pint:
+    ``"9.4 GHz"``, ``"25 mm"``; ``frequency`` is ``frequency_hz`` written so.
+unknown key
+    Refused, naming the key, its near match and every key the table allows.
 
 The schema (keys may be added, never renamed)::
 
     title = "..."
-    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...,
+    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ... (or frequency = "9.4 GHz"),
                   sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
     [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
     [materials.NAME]  eps_r, mu_r (number or [re, im]), loss_tangent, conductivity_s_m;
@@ -33,7 +39,10 @@ The schema (keys may be added, never renamed)::
                   default all incident waves)
     [solver]      tolerance = 1e-8, nodes_per_panel = 16, max_panel_wavelengths = auto,
                   max_refinements = 10, corners = "compressed" | "graded"
-    [output]      time_convention = "engineering" | "physics", plots = true, vtk = true
+    [output]      time_convention = "engineering" | "physics", plots = true, vtk = true,
+                  surface_csv = true, vtk_per_incidence = true, plot_frequencies_hz = ...,
+                  plot_from_deg = ..., field_map = "abs" | "db" | "real"
+    [run]         accept_warnings = false (exit 0, not 3, after numerical warnings)
 """
 
 from __future__ import annotations

@@ -284,3 +284,15 @@ def test_the_same_case_twice_gives_identical_csv(tmp_path):
     assert "farfield.csv" in csvs and "surface.csv" in csvs
     for name in csvs:
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes(), name
+
+
+def test_progress_lines_per_frequency_and_nothing_when_quiet(tmp_path):
+    text = SMALL.replace("frequency_hz = 3e8", "frequency_hz = [3e8, 4e8, 5e8]")
+    case = _case(tmp_path, text)
+    code, _, err = _main("run", str(case), "--out", str(tmp_path / "a"))
+    assert code == 0
+    lines = err.splitlines()
+    assert lines[0] == "frequency 1/3: 3e+08 Hz"
+    assert lines[1].startswith("frequency 2/3: 4e+08 Hz (about ") and lines[1].endswith(" s left)")
+    code, _, err = _main("run", str(case), "--out", str(tmp_path / "b"), "--quiet")
+    assert code == 0 and err == ""
