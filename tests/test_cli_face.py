@@ -22,23 +22,7 @@ from sectionwave.engine import load_case, parse_case
 from sectionwave.engine.case import CaseError
 from sectionwave.engine.cli import main
 
-SMALL = """
-title = "small test"
-[wave]
-field = "tm"
-frequency_hz = 3e8
-[[body]]
-name = "post"
-shape = { kind = "circle", radius_m = 0.2 }
-boundary = "pec"
-[[incident]]
-kind = "plane"
-from_deg = [0, 90]
-[far_field]
-angles_deg = { start = 0, stop = 360, count = 73 }
-[output]
-plots = false
-"""
+from tests.test_cli import SMALL
 
 
 def _main(*argv: str) -> tuple[int, str, str]:

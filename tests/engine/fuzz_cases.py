@@ -33,9 +33,11 @@ import time
 import traceback
 import warnings
 from pathlib import Path
-from types import FrameType
 
 ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT / "tests" / "importers"))
+from fuzz_drawings import _alarm, _Hang  # noqa: E402 - the drawing fuzzer's hang guard, shared
+
 SEED_DIRS = [ROOT / "samples", ROOT / "tests" / "data" / "bad"]
 VALUES = [b"nan", b"inf", b"-inf", b"0", b"-0", b"-1", b"1e308", b"-1e308", b"1e-320", b"1e400",
           b"99999999999999999999", b'"9.4 GHz"', b'"25 mm"', b'"2 GHz"', b'"abc"', b'""', b"true",
@@ -47,14 +49,6 @@ KEYS = [b"frequency_hz", b"frequency", b"radius_m", b"from_deg", b"angles_deg", 
         b"impedance", b"material", b"eps_r", b"loss_tangent", b"sound_speed_m_s", b"accept_warnings",
         b"plot_from_deg", b"field_map", b"surface_csv", b"time_convention", b"shape", b"kind"]
 _NUM = re.compile(rb"[-+]?\d+\.?\d*(?:[eE][-+]?\d+)?")
-
-
-class _Hang(Exception):
-    pass
-
-
-def _alarm(signum: int, frame: FrameType | None) -> None:
-    raise _Hang()
 
 
 def mutate(data: bytes, rng: random.Random) -> bytes:
