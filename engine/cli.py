@@ -99,7 +99,12 @@ class _Progress:
 
             n, total = int(m.group(1)), int(m.group(2))
             if self.bar is None:
-                self.bar = tqdm(total=total, file=sys.stderr, unit="freq", leave=False)
+                import shutil
+
+                # a terminal that reports no size (0 x 0) would hide the bar
+                size = shutil.get_terminal_size((80, 24))
+                self.bar = tqdm(total=total, file=sys.stderr, unit="freq", leave=False,
+                                ncols=min(size.columns or 80, 100), nrows=size.lines or 24)
             self.bar.update(n - 1 - self.bar.n)
             self.bar.set_description_str(message.split(":", 1)[1].split("(")[0].strip())
             return
