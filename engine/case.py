@@ -737,7 +737,7 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
         if r.has("spacing_m"):
             h = r.number("spacing_m", positive=True)
             sx, sy = (xr[1] - xr[0]) / h, (yr[1] - yr[0]) / h
-            if not (math.isfinite(sx) and math.isfinite(sy)) or (sx + 1) * (sy + 1) > 25_000_000:
+            if not (math.isfinite(sx) and math.isfinite(sy)) or sx * sy > 1e15:  # before int() overflows
                 raise r.fail("spacing_m", f"asks for {sx + 1:.3g} x {sy + 1:.3g} points; at most 25 million")
             nx = int(math.floor(sx + 1e-9)) + 1
             ny = int(math.floor(sy + 1e-9)) + 1
