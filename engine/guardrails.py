@@ -39,6 +39,7 @@ panel estimate
 from __future__ import annotations
 
 import math
+import re
 import warnings
 from dataclasses import dataclass
 from typing import Any
@@ -80,6 +81,8 @@ HUGE_WAVELENGTHS = 1e3
 #: What an engineer usually means: a scene between these sizes in wavelengths.
 _PLAUSIBLE = (0.05, 200.0)
 _PREFIXES = ((1e3, "kHz"), (1e6, "MHz"), (1e9, "GHz"), (1e12, "THz"))
+#: The engine's warnings open with "at <frequency> Hz".
+_AT_FREQUENCY = re.compile(r"^at ([-+0-9.eE]+) Hz\b")
 
 
 @dataclass(frozen=True)
@@ -306,7 +309,9 @@ def from_warnings(caught: list[warnings.WarningMessage]) -> list[Guardrail]:
             code = "ill_conditioned"
         else:
             code = "numerical"
-        item = Guardrail(code, str(w.message))
+        text = str(w.message)
+        m = _AT_FREQUENCY.match(text)
+        item = Guardrail(code, text, float(m.group(1)) if m else None)
         if item not in found:
             found.append(item)
     return found

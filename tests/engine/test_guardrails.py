@@ -154,6 +154,7 @@ def test_missed_tolerance_with_coarse_panels(tmp_path):
     assert code == 3
     assert got == ["accuracy_missed", "under_resolved"], got
     assert summary["frequencies"][0]["estimated_error"] > 1e-8
+    assert [w["frequency_hz"] for w in summary["warnings"]] == [3e9, None]
     assert "max_panel_wavelengths <=" in err
     # accepted by the flag, or by the case: exit 0, the findings still recorded
     code, summary, _, _ = _run(tmp_path, d, "--accept-warnings")
