@@ -107,6 +107,7 @@ def refine_until_accurate(
     max_refinements: int,
     fits: Callable[[PanelMesh], bool],
     where: str = "",
+    progress: Callable[[str], None] | None = None,
 ) -> AdaptiveResult:
     """Solve on ``mesh``, estimate, refine the marked panels, repeat until accurate.
 
@@ -122,6 +123,8 @@ def refine_until_accurate(
         Whether a mesh's solve fits in memory; refinement stops before one that does not.
     where
         Prefix for messages, such as ``"at 9.4e+09 Hz"``.
+    progress
+        Called with a short message after each solve that leads to a refinement.
 
     Returns
     -------
@@ -175,6 +178,9 @@ def refine_until_accurate(
         previous_ff = ff
         refinements += 1
         log.info("refining %d of %d panels (estimate %.2e)", bad.size, mesh.n_panels, estimated)
+        if progress is not None:
+            progress(f"  refinement {refinements}: estimate {estimated:.1e} above {tolerance:.0e} with "
+                     f"{current.solution.report.unknowns} unknowns; halving {bad.size} of {mesh.n_panels} panels")
         mesh = refined
     if estimated > tolerance:
         note(

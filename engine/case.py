@@ -12,11 +12,17 @@ case
 number, list or range
     Frequencies and angles accept ``9.4e9``, ``[1e9, 2e9]`` or
     ``{ start = 0, stop = 360, count = 73 }`` (both ends included).
+number with units
+    Any key ending in a unit (``_hz``, ``_m``, ``_deg``, ``_m_s``,
+    ``_kg_m3``, ``_s_m``) also takes text with units, read by pint:
+    ``"9.4 GHz"``, ``"25 mm"``; ``frequency`` is ``frequency_hz`` written so.
+unknown key
+    Refused, naming the key, its near match and every key the table allows.
 
 The schema (keys may be added, never renamed)::
 
     title = "..."
-    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...,
+    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ... (or frequency = "9.4 GHz"),
                   sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
     [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
     [materials.NAME]  eps_r, mu_r (number or [re, im]), loss_tangent, conductivity_s_m;
@@ -34,14 +40,19 @@ The schema (keys may be added, never renamed)::
     [solver]      tolerance = 1e-8, nodes_per_panel = 16, max_panel_wavelengths = auto,
                   max_refinements = 10, corners = "compressed" | "graded",
                   method = "auto" | "dense" | "fast"
-    [output]      time_convention = "engineering" | "physics", plots = true, vtk = true
+    [output]      time_convention = "engineering" | "physics", plots = true, vtk = true,
+                  surface_csv = true, vtk_per_incidence = true, plot_frequencies_hz = ...,
+                  plot_from_deg = ..., field_map = "abs" | "db" | "real"
+    [run]         accept_warnings = false (exit 0, not 3, after numerical warnings)
 """
 
 from __future__ import annotations
 
+import difflib
+import fnmatch
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Literal, cast
 
@@ -76,7 +87,7 @@ from .problem import (
     SolverOptions,
 )
 
-__all__ = ["Case", "CaseError", "load_case", "parse_case"]
+__all__ = ["Case", "CaseError", "load_case", "parse_case", "refuse_absurd", "to_si"]
 
 
 class CaseError(SectionwaveError, ValueError):
@@ -95,16 +106,23 @@ MATERIAL_KEYS = (
     "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
     "sound_speed_m_s", "density_kg_m3", "attenuation_db_per_wavelength",
 )
+#: Most values a {start, stop, count} range may ask for.
+MAX_RANGE_COUNT = 1_000_000
 #: Every key each table allows (for the "known keys" list of an error).
 KNOWN_KEYS: dict[str, tuple[str, ...]] = {
-    "": ("title", "wave", "geometry", "materials", "body", "incident", "far_field", "near_field", "solver", "output"),
-    "wave": ("field", "frequency_hz", "sound_speed_m_s", "density_kg_m3"),
+    "": ("title", "wave", "geometry", "materials", "body", "incident", "far_field", "near_field", "solver",
+         "output", "run"),
+    "wave": ("field", "frequency_hz", "frequency", "sound_speed_m_s", "density_kg_m3"),
     "geometry": ("file", "units", "gap_tol_m"),
     "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
     "far_field": ("angles_deg",),
     "near_field": ("x_m", "y_m", "spacing_m", "count", "probes_csv", "from_deg"),
     "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements", "corners", "method"),
-    "output": ("time_convention", "plots", "vtk"),
+    "output": ("time_convention", "plots", "vtk", "surface_csv", "vtk_per_incidence", "plot_frequencies_hz",
+               "plot_from_deg", "field_map"),
+    "run": ("accept_warnings",),
+    "incident": ("kind", "name", "from_deg", "position_m"),
+    "materials": MATERIAL_KEYS,
 }
 SHAPE_KEYS: dict[str, tuple[str, ...]] = {
     "circle": ("kind", "radius_m", "center_m"),
@@ -114,12 +132,82 @@ SHAPE_KEYS: dict[str, tuple[str, ...]] = {
 }
 
 
+#: SI unit of a key, from the end of its name (longest first); ``frequency`` is ``frequency_hz`` with units.
+_KEY_UNITS: tuple[tuple[str, str, str], ...] = (
+    ("_kg_m3", "kg/m**3", "a density"),
+    ("_m_s", "m/s", "a speed"),
+    ("_s_m", "S/m", "a conductivity"),
+    ("_hz", "Hz", "a frequency"),
+    ("_deg", "degree", "an angle"),
+    ("_m", "m", "a length"),
+    ("frequency", "Hz", "a frequency"),
+)
+_UNIT_REGISTRY: Any = None
+
+
+def _registry() -> Any:
+    global _UNIT_REGISTRY
+    if _UNIT_REGISTRY is None:
+        import pint
+
+        _UNIT_REGISTRY = pint.UnitRegistry(cache_folder=None)
+    return _UNIT_REGISTRY
+
+
+def to_si(text: str, key: str) -> float:
+    """A number with units written as text (``"9.4 GHz"``, ``"25 mm"``) in the SI unit of ``key``.
+
+    The unit follows from the end of the key's name (``_hz``, ``_m``,
+    ``_deg``, ``_m_s``, ``_kg_m3``, ``_s_m``); the text is read by pint.
+
+    Raises
+    ------
+    ValueError
+        If the key takes no units, the text is not a quantity, its units
+        do not fit the key, or its value is not finite.
+
+    Examples
+    --------
+    >>> to_si("9.4 GHz", "frequency_hz")
+    9400000000.0
+    >>> to_si("25 mm", "radius_m")
+    0.025
+    """
+    spec = next((u for u in _KEY_UNITS if key.endswith(u[0])), None)
+    if spec is None:
+        raise ValueError(f"must be a finite number, got {text!r}")
+    _, unit, what = spec
+    if len(text) > 100:
+        raise ValueError(f"must be a number or {what} with units such as \"{_EXAMPLE[unit]}\", got a text of {len(text)} characters")
+    ureg = _registry()
+    try:
+        quantity = ureg.Quantity(text.strip())
+        if not isinstance(quantity, ureg.Quantity) or quantity.unitless:
+            raise ValueError("no units")
+        value = float(quantity.to(unit).magnitude)
+    except Exception:  # noqa: BLE001 - pint raises many kinds for text it cannot read; all mean the same here
+        raise ValueError(
+            f"must be a finite number (in {unit.replace('**', '^')}) or {what} with units such as \"{_EXAMPLE[unit]}\", got {text!r}"
+        ) from None
+    if not math.isfinite(value):
+        raise ValueError(f"must be finite, got {text!r}")
+    return value
+
+
+_EXAMPLE = {"Hz": "9.4 GHz", "m": "25 mm", "degree": "30 deg", "m/s": "1480 m/s",
+            "kg/m**3": "1000 kg/m^3", "S/m": "5.8e7 S/m"}
+_ALL_SHAPE_KEYS = tuple(sorted({k for keys in SHAPE_KEYS.values() for k in keys}))
+
+
 class _Reader:
     """Typed access to one TOML table, with errors that name file and key."""
 
-    def __init__(self, source: str, table: Mapping[str, Any], where: str) -> None:
+    def __init__(self, source: str, table: Mapping[str, Any], where: str, known: tuple[str, ...] = ()) -> None:
         self.source, self.table, self.where = source, table, where
         self.used: set[str] = set()
+        if known:
+            # unknown keys first: a misspelt key is named, not reported as a missing one
+            self.finish(known)
 
     def fail(self, key: str, message: str) -> CaseError:
         place = f"{self.where}.{key}" if self.where else key
@@ -136,7 +224,8 @@ class _Reader:
         value = self.get(key, default)
         if value is None:
             raise self.fail(key, "is required (a number)")
-        if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+        value = self._with_units(key, value)
+        if not _is_finite_number(value):
             raise self.fail(key, f"must be a finite number, got {value!r}")
         if positive and value <= 0:
             raise self.fail(key, f"must be positive, got {value!r}")
@@ -154,6 +243,8 @@ class _Reader:
 
     def point(self, key: str, default: Any = None) -> tuple[float, float]:
         value = self.get(key, default)
+        if isinstance(value, list | tuple):
+            value = [self._with_units(key, v) for v in value]
         if (
             not isinstance(value, list | tuple)
             or len(value) != 2
@@ -171,13 +262,13 @@ class _Reader:
             if set(value) != {"start", "stop", "count"}:
                 raise self.fail(key, f"a range needs exactly start, stop and count, got {sorted(value)}")
             count = value["count"]
-            if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-                raise self.fail(key, f"count must be a positive integer, got {count!r}")
-            start, stop = value["start"], value["stop"]
+            if isinstance(count, bool) or not isinstance(count, int) or not 1 <= count <= MAX_RANGE_COUNT:
+                raise self.fail(key, f"count must be an integer from 1 to {MAX_RANGE_COUNT}, got {count!r}")
+            start, stop = self._with_units(key, value["start"]), self._with_units(key, value["stop"])
             for v in (start, stop):
                 if not _is_finite_number(v):
                     raise self.fail(key, f"start and stop must be finite numbers, got {v!r}")
-            out = tuple(float(v) for v in np.linspace(start, stop, count))
+            out = tuple(float(v) for v in np.linspace(float(start), float(stop), count))
         elif isinstance(value, list):
             if not value:
                 raise self.fail(key, "is an empty list")
@@ -188,23 +279,40 @@ class _Reader:
             raise self.fail(key, f"values must be positive, got {value!r}")
         return out
 
+    def _with_units(self, key: str, value: Any, lead: str = "") -> Any:
+        """A number given as text with units (``"9.4 GHz"``) in the key's SI unit; other values unchanged."""
+        if not isinstance(value, str):
+            return value
+        try:
+            return to_si(value, key)
+        except ValueError as exc:
+            raise self.fail(key, lead + str(exc)) from None
+
     def _scalar(self, key: str, v: Any) -> float:
-        if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v):
+        v = self._with_units(key, v, "must hold finite numbers: each ")
+        if not _is_finite_number(v):
             raise self.fail(key, f"must hold finite numbers, got {v!r}")
         return float(v)
 
     def finish(self, known: tuple[str, ...] = ()) -> None:
         """Refuse any key that is neither read nor listed in ``known`` (every key the table allows)."""
         allowed = set(known) | self.used
-        unknown = sorted(set(self.table) - allowed)
+        unknown = sorted(set(self.table) - allowed, key=str)
         if unknown:
+            near = difflib.get_close_matches(str(unknown[0]), sorted(allowed), n=1, cutoff=0.6)
+            hint = f"did you mean {near[0]!r}? " if near else ""
             raise self.fail(
-                unknown[0], f"is not a known key here; known keys: {', '.join(sorted(allowed))}"
+                str(unknown[0]), f"is not a known key here; {hint}known keys: {', '.join(sorted(allowed))}"
             )
 
 
 def _is_finite_number(v: Any) -> bool:
-    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+    if not isinstance(v, int | float) or isinstance(v, bool):
+        return False
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:  # an integer beyond the float range
+        return False
 
 
 def _tables(r: _Reader, key: str, value: Any) -> list[Mapping[str, Any]]:
@@ -308,7 +416,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     CaseError
         For any missing, malformed or unknown key.
     """
-    top = _Reader(source, doc, "")
+    top = _Reader(source, doc, "", KNOWN_KEYS[""])
     title = top.text("title", "untitled")
     for name in ("wave", "far_field", "solver", "output", "geometry", "near_field", "materials"):
         if top.has(name) and not isinstance(doc[name], Mapping):
@@ -321,7 +429,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     drawing = None
     audit = None
     if geometry is not None:
-        drawing, audit = _load_geometry(_Reader(source, geometry, "geometry"), base_dir)
+        drawing, audit = _load_geometry(_Reader(source, geometry, "geometry", KNOWN_KEYS["geometry"]), base_dir)
     materials = _materials(top, source)
     scatterers = _bodies(top, source, field_kind, drawing, materials)
     notes = tuple(
@@ -331,18 +439,29 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     )
     incidents = _incidents(top, source, scatterers)
 
-    ffr = _Reader(source, top.get("far_field") or {}, "far_field")
+    ffr = _Reader(source, top.get("far_field") or {}, "far_field", KNOWN_KEYS["far_field"])
     if ffr.has("angles_deg"):
         angles = np.array(ffr.values("angles_deg"))
     else:
         ffr.used.add("angles_deg")
         angles = np.linspace(0.0, 360.0, 721)
     ffr.finish(KNOWN_KEYS["far_field"])
-    solver = _solver(_Reader(source, top.get("solver") or {}, "solver"))
-    output = _output(_Reader(source, top.get("output") or {}, "output"), title, source, audit, notes)
+    solver = _solver(_Reader(source, top.get("solver") or {}, "solver", KNOWN_KEYS["solver"]))
+    if top.has("run") and not isinstance(doc["run"], Mapping):
+        raise top.fail("run", "must be a table: [run] accept_warnings = true")
+    rr = _Reader(source, top.get("run") or {}, "run", KNOWN_KEYS["run"])
+    accept = rr.get("accept_warnings", False)
+    if not isinstance(accept, bool):
+        raise rr.fail("accept_warnings", f"must be true or false, got {accept!r}")
+    if audit is not None:
+        notes += tuple(audit.get("unit_notes", ()))
+    output = _output(_Reader(source, top.get("output") or {}, "output", KNOWN_KEYS["output"]),
+                     title, source, audit, notes)
+    output = replace(output, accept_warnings=accept)
     near = None
     if top.has("near_field"):
-        near = _near_field(_Reader(source, top.get("near_field"), "near_field"), base_dir, incidents)
+        near = _near_field(_Reader(source, top.get("near_field"), "near_field", KNOWN_KEYS["near_field"]),
+                           base_dir, incidents)
     top.used.update({"body", "incident"})
     top.finish(KNOWN_KEYS[""])
     problem = Problem(
@@ -358,17 +477,64 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     return Case(problem, output)
 
 
+def refuse_absurd(case: Case) -> None:
+    """Refuse at once a case whose mesh would need more than ``mesh.MAX_PANELS`` panels.
+
+    A one-line estimate (perimeter over wavelength, ``guardrails.estimate_panels``)
+    made before any meshing; the message names the quantity that is absurd
+    (the frequency, the bodies' size, or the panel setting).
+
+    Raises
+    ------
+    CaseError
+        If the estimate is above the limit.
+    """
+    source, problem = case.output.case, case.problem
+    has_drawing = case.output.drawing_audit is not None
+    from .guardrails import estimate_panels
+    from .mesh import MAX_PANELS
+
+    est = estimate_panels(problem)
+    if not est.is_absurd:
+        return
+    tail = (f"the mesh would need at least {est.panels:.2g} panels (at most {MAX_PANELS})")
+    if not 1e-4 <= est.size_m <= 1e5:
+        key = "[geometry] units" if has_drawing else "[[body]] shape"
+        raise CaseError(
+            f"{source}: {key}: the bodies span {est.size_m:.3g} m, an absurd size for a cross-section; "
+            f"{tail}; check the drawing's units (units = \"mm\", ...)"
+        )
+    if est.wavelength_m * 1e4 < est.size_m and problem.solver.max_panel_wavelengths is None:
+        raise CaseError(
+            f"{source}: [wave] frequency_hz: {est.frequency_hz:.4g} Hz is absurd for bodies {est.size_m:.3g} m "
+            f"across: the wavelength is {est.wavelength_m:.3g} m and {tail}; give the frequency in Hz "
+            "(9.4e9 or \"9.4 GHz\" for 9.4 GHz)"
+        )
+    raise CaseError(
+        f"{source}: [solver] max_panel_wavelengths: panels of at most {problem.solver.max_panel_wavelengths or 1:g} "
+        f"wavelengths ({est.wavelength_m:.3g} m) at {est.frequency_hz:.4g} Hz on {est.perimeter_m:.3g} m of boundary: "
+        f"{tail}; raise max_panel_wavelengths or lower the frequency"
+    )
+
+
 def _wave(wave: _Reader) -> tuple[Any, tuple[float, ...], Medium]:
+    if not wave.has("field"):
+        wave.finish(KNOWN_KEYS["wave"])  # a misspelt "field" is named, not reported missing
     field_kind = wave.text("field", choices=FIELDS)
-    freqs = wave.values("frequency_hz", positive=True)
+    allowed = KNOWN_KEYS["wave"] if field_kind == "acoustic" else ("field", "frequency_hz", "frequency")
+    wave.finish(allowed)  # a misspelt key is named before a required one is missed
+    key = "frequency" if wave.has("frequency") else "frequency_hz"
+    if wave.has("frequency") and wave.has("frequency_hz"):
+        raise wave.fail("frequency", "give frequency_hz (a number in Hz) or frequency (\"9.4 GHz\"), not both")
+    freqs = wave.values(key, positive=True)
     if len(set(freqs)) != len(freqs):
-        raise wave.fail("frequency_hz", f"repeats a frequency: {list(freqs)}")
+        raise wave.fail(key, f"repeats a frequency: {list(freqs)}")
     if field_kind == "acoustic":
         speed = wave.number("sound_speed_m_s", SOUND_SPEED_AIR_M_S, positive=True)
         density = wave.number("density_kg_m3", DENSITY_AIR_KG_M3, positive=True)
     else:
         speed, density = SPEED_OF_LIGHT_M_S, 0.0
-    wave.finish(KNOWN_KEYS["wave"] if field_kind == "acoustic" else ("field", "frequency_hz"))
+    wave.finish(allowed)
     return field_kind, freqs, Medium(speed, density)
 
 
@@ -412,7 +578,7 @@ def _materials(top: _Reader, source: str) -> dict[str, Material]:
     for name, spec in raw.items():
         if not isinstance(spec, Mapping):
             raise CaseError(f"{source}: [materials.{name}] must be a table of material keys ({', '.join(MATERIAL_KEYS)})")
-        mr = _Reader(source, spec, f"materials.{name}")
+        mr = _Reader(source, spec, f"materials.{name}", MATERIAL_KEYS)
         table[name] = _material(mr, name)
         mr.finish(MATERIAL_KEYS)
     return table
@@ -447,7 +613,7 @@ def _bodies(
     bodies: list[Scatterer] = []
     allowed = BOUNDARIES[field_kind]
     for i, raw in enumerate(raw_bodies):
-        br = _Reader(source, raw, f"body.{i}")
+        br = _Reader(source, raw, f"body.{i}", KNOWN_KEYS["body"])
         name = br.text("name", f"body{i + 1}")
         picks = [k for k in ("shape", "layer", "point_m") if br.has(k)]
         if len(picks) != 1:
@@ -465,7 +631,7 @@ def _bodies(
             shape = br.get("shape")
             if not isinstance(shape, Mapping):
                 raise br.fail("shape", "must be a table such as { kind = \"circle\", radius_m = 0.05 }")
-            found = [_inline_shape(_Reader(source, shape, f"body.{i}.shape"))]
+            found = [_inline_shape(_Reader(source, shape, f"body.{i}.shape", _ALL_SHAPE_KEYS))]
             where = "inline shape"
         else:
             if drawing is None:
@@ -493,7 +659,7 @@ def _incidents(top: _Reader, source: str, bodies: list[Scatterer]) -> list[Incid
     incidents: list[IncidentWave] = []
     names = []
     for i, raw in enumerate(raw_inc):
-        ir = _Reader(source, raw, f"incident.{i}")
+        ir = _Reader(source, raw, f"incident.{i}", KNOWN_KEYS["incident"])
         kind = ir.text("kind", "plane", choices=("plane", "line"))
         name = ir.text("name", f"incident{i + 1}")
         names.append(name)
@@ -538,16 +704,23 @@ def _output(
     orr: _Reader, title: str, source: str, audit: dict[str, Any] | None, notes: tuple[str, ...]
 ) -> OutputOptions:
     convention = orr.text("time_convention", "engineering", choices=TIME_CONVENTIONS)
-    plots = orr.get("plots", True)
-    vtk = orr.get("vtk", True)
-    for key, val in (("plots", plots), ("vtk", vtk)):
+    switches = {key: orr.get(key, True) for key in ("plots", "vtk", "surface_csv", "vtk_per_incidence")}
+    for key, val in switches.items():
         if not isinstance(val, bool):
             raise orr.fail(key, f"must be true or false, got {val!r}")
+    plot_f = orr.values("plot_frequencies_hz", positive=True) if orr.has("plot_frequencies_hz") else None
+    plot_a = orr.values("plot_from_deg") if orr.has("plot_from_deg") else None
+    field_map = orr.text("field_map", "abs", choices=("abs", "db", "real"))
     orr.finish(KNOWN_KEYS["output"])
     return OutputOptions(
         time_convention=cast(TimeConvention, convention),  # checked against TIME_CONVENTIONS above
-        plots=bool(plots),
-        vtk=bool(vtk),
+        plots=switches["plots"],
+        vtk=switches["vtk"],
+        surface_csv=switches["surface_csv"],
+        vtk_per_incidence=switches["vtk_per_incidence"],
+        plot_frequencies_hz=plot_f,
+        plot_from_deg=plot_a,
+        field_map=cast(Literal["abs", "db", "real"], field_map),
         title=title,
         case=source,
         drawing_audit=audit,
@@ -566,8 +739,11 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
             raise r.fail("spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]")
         if r.has("spacing_m"):
             h = r.number("spacing_m", positive=True)
-            nx = int(math.floor((xr[1] - xr[0]) / h + 1e-9)) + 1
-            ny = int(math.floor((yr[1] - yr[0]) / h + 1e-9)) + 1
+            sx, sy = (xr[1] - xr[0]) / h, (yr[1] - yr[0]) / h
+            if not (math.isfinite(sx) and math.isfinite(sy)) or sx * sy > 1e15:  # before int() overflows
+                raise r.fail("spacing_m", f"asks for {sx + 1:.3g} x {sy + 1:.3g} points; at most 25 million")
+            nx = int(math.floor(sx + 1e-9)) + 1
+            ny = int(math.floor(sy + 1e-9)) + 1
         else:
             cnt = r.get("count")
             if not (isinstance(cnt, list) and len(cnt) == 2
@@ -580,7 +756,10 @@ def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]
         x = np.linspace(xr[0], xr[1], nx)
         y = np.linspace(yr[0], yr[1], ny)
     if r.has("probes_csv"):
-        path = Path(r.text("probes_csv"))
+        text = r.text("probes_csv")
+        if "\x00" in text or not text.strip():
+            raise r.fail("probes_csv", f"is not a usable file name: {text!r}; give the CSV file's path")
+        path = Path(text)
         if not path.is_absolute() and base_dir is not None:
             path = base_dir / path
         probes = _read_probes(r, path)
@@ -644,9 +823,10 @@ def _check_disjoint(source: str, bodies: list[Scatterer]) -> None:
             else:
                 c = polys[i].boundary.intersection(polys[j].boundary)
                 c = c.representative_point() if not c.is_empty else polys[i].intersection(polys[j]).representative_point()
+                near = f"near ({c.x:.6g}, {c.y:.6g}) m" if not c.is_empty else "(no finite point found)"
                 raise CaseError(
                     f"{source}: bodies {bodies[i].name!r} and {bodies[j].name!r} overlap or touch "
-                    f"near ({c.x:.6g}, {c.y:.6g}) m; move them apart or merge them into one body "
+                    f"{near}; move them apart or merge them into one body "
                     "(a body may lie inside a penetrable one without touching it)"
                 )
 
@@ -655,16 +835,27 @@ def _load_geometry(r: _Reader, base_dir: Path | None) -> tuple[Any, dict[str, An
     """Read and clean the case's drawing: ``[(layer, Body), ...]`` and the audit."""
     from sectionwave.importers import clean_drawing, read_drawing
 
-    path = Path(r.text("file"))
+    text = r.text("file")
+    if "\x00" in text or not text.strip():
+        raise r.fail("file", f"is not a usable file name: {text!r}; give the drawing's path")
+    path = Path(text)
     if not path.is_absolute() and base_dir is not None:
         path = base_dir / path
     units = r.text("units") if r.has("units") else None
     gap = r.number("gap_tol_m", positive=True) if r.has("gap_tol_m") else None
     r.finish(KNOWN_KEYS["geometry"])
-    drawing = read_drawing(path, units=units)
-    cleaned = clean_drawing(drawing, gap_tol_m=gap)
-    cleaned.raise_for_errors()
+    if not path.exists():
+        where = f" (relative to the case file's folder {base_dir})" if base_dir is not None else ""
+        raise r.fail("file", f"the drawing {path} does not exist{where}; correct the path in [geometry] file")
+    try:
+        drawing = read_drawing(path, units=units)
+        cleaned = clean_drawing(drawing, gap_tol_m=gap)
+        cleaned.raise_for_errors()
+    except SectionwaveError as exc:
+        # the drawing's own message (file, place, fix), prefixed with the case file and key
+        raise type(exc)(f"{r.source}: [geometry.file] {exc}") from None
     audit = {"file": str(path), "units": drawing.units, **cleaned.audit.to_dict()}
+    audit["unit_notes"] = [n for n in drawing.notes if "overridden by units" in n or "user units taken as" in n]
     return list(zip(cleaned.layers, cleaned.bodies, strict=True)), audit
 
 
@@ -672,7 +863,8 @@ def _pick_from_drawing(br: _Reader, how: str, drawing: Any) -> tuple[list[Body],
     named: list[tuple[str, Body]] = drawing
     if how == "layer":
         layer = br.text("layer")
-        found = [b for lay, b in named if lay == layer]
+        # the same rule as ``inspect --layer``: case-insensitive, glob patterns allowed
+        found = [b for lay, b in named if fnmatch.fnmatchcase(lay.casefold(), layer.casefold())]
         if not found:
             raise br.fail("layer", f"{layer!r} holds no closed body; layers with bodies: {sorted({lay for lay, _ in named})}")
         return found, f"layer {layer}"
@@ -689,7 +881,8 @@ def load_case(path: str | Path) -> Case:
     Raises
     ------
     CaseError
-        If the file cannot be read, is not valid TOML, or fails validation.
+        If the file cannot be read, is not valid TOML, fails validation, or
+        asks for an absurdly large mesh (see ``refuse_absurd``).
     """
     import sys
 
@@ -706,7 +899,9 @@ def load_case(path: str | Path) -> Case:
     try:
         doc = tomllib.loads(data.decode("utf-8"))
     except UnicodeDecodeError as exc:
-        raise CaseError(f"{source}: not UTF-8 text (byte {exc.start})") from None
+        raise CaseError(f"{source}: not UTF-8 text (byte {exc.start}); save the case file as UTF-8") from None
     except tomllib.TOMLDecodeError as exc:
-        raise CaseError(f"{source}: invalid TOML: {exc}") from None
-    return parse_case(doc, source=source, base_dir=base)
+        raise CaseError(f"{source}: invalid TOML: {exc}; correct the syntax there") from None
+    case = parse_case(doc, source=source, base_dir=base)
+    refuse_absurd(case)
+    return case

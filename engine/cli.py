@@ -1,24 +1,40 @@
-"""Command line: ``sectionwave run CASE.toml`` and ``sectionwave inspect DRAWING``.
+"""Command line: ``sectionwave run CASE.toml``, ``sectionwave inspect DRAWING``, ``sectionwave new CASE.toml``.
 
 Exit codes: 0 success, 2 bad input (one line naming file, key and allowed
-values), 1 internal failure, 130 interrupted. Progress goes to stderr only
-when it is a terminal; ``--quiet`` silences everything but errors;
-``--verbose`` shows the engine's log (refinements, timings).
+values), 3 finished with numerical warnings (see ``engine.guardrails``;
+accepted with ``--accept-warnings`` or ``[run] accept_warnings = true``),
+1 internal failure, 130 interrupted (Ctrl-C or SIGTERM). Progress goes to
+stderr (a bar when it is a terminal, plain lines otherwise); ``--quiet``
+silences everything but errors and the numerical warnings; ``--verbose``
+shows the engine's log (timings).
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import logging
+import os
+import re
+import signal
 import sys
+import time
 import warnings
-from collections.abc import Sequence
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import replace
 from pathlib import Path
+from typing import Any
 
-__all__ = ["main"]
+__all__ = ["EXIT_BAD_INPUT", "EXIT_FAILURE", "EXIT_INTERRUPTED", "EXIT_OK", "EXIT_WARNINGS", "main"]
 
-EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
+EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT, EXIT_WARNINGS, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
+
+_EPILOG = (
+    "exit codes: 0 done; 2 bad input (nothing written); 3 done, but with numerical warnings "
+    "(listed on stderr and in summary.json; accept them with --accept-warnings or "
+    "[run] accept_warnings = true in the case); 1 internal error; 130 interrupted (Ctrl-C, SIGTERM)"
+)
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -28,25 +44,34 @@ def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="sectionwave",
         description="2D wave scattering from CAD cross-sections (echo width, far field, surface fields).",
+        epilog=_EPILOG,
     )
     parser.add_argument("--version", action="version", version=f"sectionwave {__version__}")
     parser.add_argument("-v", "--verbose", action="store_true", help="show the engine's log on stderr")
     sub = parser.add_subparsers(dest="command", required=True)
-    run = sub.add_parser("run", help="solve a case file and write its results")
+    run = sub.add_parser("run", help="solve a case file and write its results", epilog=_EPILOG)
     run.add_argument("case", help="case file (TOML), or - to read it from standard input")
     run.add_argument("--out", type=Path, help="results folder (default: CASE-results beside the case)")
     run.add_argument("--force", action="store_true", help="replace an existing results folder")
-    run.add_argument("--quiet", action="store_true", help="print nothing but errors")
+    run.add_argument("--quiet", action="store_true",
+                     help="print nothing but errors and numerical warnings (these are never hidden)")
+    run.add_argument("--accept-warnings", action="store_true",
+                     help="exit 0, not 3, when the run finishes with numerical warnings")
     run.add_argument(
         "--time-convention", choices=TIME_CONVENTIONS, default=None,
         help="engineering: exp(+j w t) (default); physics: exp(-i w t), complex conjugates",
     )
     ins = sub.add_parser("inspect", help="show what a drawing holds and how it cleans into bodies")
     ins.add_argument("drawing")
-    ins.add_argument("--units", help="drawing units when the file has none (mm, cm, m, in, ft)")
-    ins.add_argument("--layer", action="append", help="only this layer (repeatable, glob allowed)")
+    ins.add_argument("--units", help="drawing units when the file has none (mm, cm, m, in, ft); "
+                                     "overrides the file's own, with a note")
+    ins.add_argument("--layer", action="append",
+                     help="only this layer (repeatable, glob allowed, case-insensitive as in a case)")
     ins.add_argument("--json", action="store_true", help="machine-readable report on stdout")
-    ins.add_argument("--preview", type=Path, help="write a PNG of the cleaned bodies")
+    ins.add_argument("--preview", type=Path, help="write a PNG of the cleaned bodies (folders are created)")
+    new = sub.add_parser("new", help="write a commented starter case that runs as written")
+    new.add_argument("case", type=Path, help="case file to create (TOML)")
+    new.add_argument("--force", action="store_true", help="replace an existing file")
     return parser
 
 
@@ -55,63 +80,210 @@ def _say(quiet: bool, message: str) -> None:
         print(message, file=sys.stderr)
 
 
-def _run(args: argparse.Namespace) -> int:
-    from . import load_case, solve_problem, write_run
-    from .solve import ProblemTooLargeError
+class _Progress:
+    """Progress on stderr: a tqdm bar on a terminal, plain lines otherwise, nothing when quiet."""
 
-    case = load_case(args.case)
+    _FREQ = re.compile(r"^frequency (\d+)/(\d+)")
+
+    def __init__(self, quiet: bool) -> None:
+        self.quiet = quiet
+        self.bar: Any = None
+        self.is_tty = sys.stderr.isatty()
+
+    def __call__(self, message: str) -> None:
+        if self.quiet:
+            return
+        m = self._FREQ.match(message)
+        if self.is_tty and m:
+            from tqdm import tqdm
+
+            n, total = int(m.group(1)), int(m.group(2))
+            if self.bar is None:
+                import shutil
+
+                # a terminal that reports no size (0 x 0) would hide the bar
+                size = shutil.get_terminal_size((80, 24))
+                self.bar = tqdm(total=total, file=sys.stderr, unit="freq", leave=False,
+                                ncols=min(size.columns or 80, 100), nrows=size.lines or 24)
+            self.bar.update(n - 1 - self.bar.n)
+            self.bar.set_description_str(message.split(":", 1)[1].split("(")[0].strip())
+            return
+        if self.bar is not None:
+            self.bar.write(message, file=sys.stderr)
+        else:
+            print(message, file=sys.stderr, flush=True)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.close()
+            self.bar = None
+
+
+def _output_folder(args: argparse.Namespace) -> Path:
     if args.out is not None:
-        out = args.out
-    elif args.case == "-":
-        out = Path("sectionwave-results")
-    else:
-        out = Path(args.case).with_name(Path(args.case).stem + "-results")
-    # Refuse before solving, not after: results are never silently replaced.
+        return Path(args.out)
+    if args.case == "-":
+        return Path("sectionwave-results")
+    return Path(args.case).with_name(Path(args.case).stem + "-results")
+
+
+@contextlib.contextmanager
+def _locked(out: Path) -> Iterator[None]:
+    """Hold a lock beside the output folder so that two runs cannot write into one folder."""
+    from filelock import FileLock, Timeout
+
+    parent = out.absolute().parent
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise _BadInput(f"{out}: cannot create the folder {parent} ({exc.strerror}); choose another --out") from None
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise _BadInput(f"{out}: the folder {parent} is not writable; choose another --out")
+    lock = FileLock(str(parent / f".{out.absolute().name}.lock"), timeout=0)
+    try:
+        lock.acquire()
+    except Timeout:
+        raise _BadInput(
+            f"{out}: another sectionwave run is writing into this folder; wait for it or choose another --out"
+        ) from None
+    except OSError as exc:
+        raise _BadInput(f"{out}: cannot lock the results folder ({exc.strerror}); choose another --out") from None
+    try:
+        yield
+    finally:
+        lock.release()
+        with contextlib.suppress(OSError):
+            os.unlink(lock.lock_file)
+
+
+def _check_out(out: Path, force: bool) -> None:
+    """Refuse before solving, not after: results are never silently replaced."""
     from .export.atomic import OUTPUT_MARKER
 
     if out.exists() and not out.is_dir():
         raise _BadInput(f"{out}: exists and is not a folder; choose another --out")
     if out.exists() and any(out.iterdir()):
-        if not args.force:
+        if not force:
             raise _BadInput(f"{out}: results folder exists and is not empty; pass --force to replace it or choose --out")
         if not (out / OUTPUT_MARKER).exists():
             raise _BadInput(f"{out}: not a sectionwave results folder; --force only replaces earlier results")
-    show = not args.quiet and sys.stderr.isatty()
-    progress = (lambda msg: print(msg, file=sys.stderr)) if show else None
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+
+
+def _run(args: argparse.Namespace) -> int:
+    from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
+
+    from . import load_case, solve_problem, write_run
+    from .guardrails import check_problem, check_result, from_warnings
+    from .solve import ProblemTooLargeError
+
+    case = load_case(args.case)
+    out = _output_folder(args)
+    for note in case.output.notes:
+        if "overridden by units" in note or "user units taken as" in note:
+            _say(args.quiet, f"note: {note}")
+    with contextlib.ExitStack() as stack:
         try:
-            result = solve_problem(case.problem, progress=progress)
-        except ProblemTooLargeError as exc:
-            raise _BadInput(
-                f"{case.output.case}: {exc} (case keys: [wave] frequency_hz, [solver] tolerance)"
-            ) from None
-    write_run(result, out, case.output, force=args.force, convention=args.time_convention)
+            stack.enter_context(_locked(out))
+            _check_out(out, args.force)
+        except _BadInput as exc:
+            raise _BadInput(f"{case.output.case}: {exc}") from None
+        findings = check_problem(case.problem)
+        progress = _Progress(args.quiet)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            try:
+                result = solve_problem(case.problem, progress=progress)
+            except ProblemTooLargeError as exc:
+                raise _BadInput(
+                    f"{case.output.case}: {exc} (case keys: [wave] frequency_hz, [solver] tolerance)"
+                ) from None
+            except SectionwaveError as exc:
+                raise _BadInput(f"{case.output.case}: {exc}") from None
+            finally:
+                progress.close()
+        findings += [f for f in from_warnings(caught) + check_result(result) if f not in findings]
+        output = replace(case.output, warnings=tuple(f.to_dict() for f in findings))
+        write_run(result, out, output, force=args.force, convention=args.time_convention)
     for w in caught:
-        _say(args.quiet, f"warning: {w.message}")
+        if not issubclass(w.category, SectionwaveWarning):
+            _say(args.quiet, f"warning: {w.message}")
+    for f in findings:
+        # never hidden, not even by --quiet: these say the numbers may be wrong
+        print(f"sectionwave: warning [{f.code}]: {f.message}", file=sys.stderr)
     worst = max(fr.estimated_error for fr in result.frequencies)
     _say(args.quiet, f"wrote {out} ({len(result.frequencies)} frequencies, estimated error {worst:.1e})")
+    if findings and not (args.accept_warnings or case.output.accept_warnings):
+        print(
+            f"sectionwave: finished with {len(findings)} numerical warning(s) (exit code 3); results are in "
+            f"{out}; accept them with --accept-warnings or [run] accept_warnings = true",
+            file=sys.stderr,
+        )
+        return EXIT_WARNINGS
     return EXIT_OK
+
+
+def _inspect_case_file(path: Path) -> str:
+    """What to say when ``inspect`` is given a case file instead of a drawing."""
+    hint = ""
+    with contextlib.suppress(Exception):
+        import tomllib
+
+        geometry = tomllib.loads(path.read_text(encoding="utf-8")).get("geometry", {})
+        if isinstance(geometry, dict) and isinstance(geometry.get("file"), str):
+            drawing = path.parent / geometry["file"]
+            hint = f", or inspect its drawing: sectionwave inspect {drawing}"
+    return f"{path}: is a case file, not a drawing; run it with: sectionwave run {path}{hint}"
 
 
 def _inspect(args: argparse.Namespace) -> int:
     from sectionwave.importers import clean_drawing, read_drawing
     from sectionwave.importers import inspect as insp
 
-    drawing = read_drawing(Path(args.drawing), units=args.units, layers=args.layer)
+    path = Path(args.drawing)
+    if path.suffix.lower() == ".toml":
+        raise _BadInput(_inspect_case_file(path))
+    drawing = read_drawing(path, units=args.units, layers=args.layer)
+    if args.units is not None:
+        for note in drawing.notes:
+            if "overridden by units" in note or "user units taken as" in note:
+                print(f"note: {path}: {note}", file=sys.stderr)
     cleaned = clean_drawing(drawing)
     report = insp.inspection_report(drawing, cleaned)
     if args.preview is not None:
+        try:
+            args.preview.absolute().parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise _BadInput(f"{args.preview}: cannot create its folder ({exc.strerror}); choose another --preview") from None
         insp.write_preview_png(cleaned, args.preview)
     if args.json:
         print(json.dumps(report, indent=2, default=str))
     else:
         print(insp.format_inspection(report))
+    sys.stdout.flush()
     errors = report.get("audit", {}).get("errors") or []
     if errors or not cleaned.bodies:
         first = errors[0]["message"] if errors else "no closed body found"
         print(f"sectionwave: error: {args.drawing}: {first}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    return EXIT_OK
+
+
+def _new(args: argparse.Namespace) -> int:
+    from .starter import STARTER_CASE
+
+    path: Path = args.case
+    if path.suffix.lower() != ".toml":
+        raise _BadInput(f"{path}: a case file ends in .toml; choose a name such as {path.with_suffix('.toml')}")
+    if path.exists() and not args.force:
+        raise _BadInput(f"{path}: exists; pass --force to replace it or choose another name")
+    from .export.atomic import atomic_write_text
+
+    try:
+        path.absolute().parent.mkdir(parents=True, exist_ok=True)
+        atomic_write_text(path, STARTER_CASE)
+    except OSError as exc:
+        raise _BadInput(f"{path}: cannot write ({exc.strerror}); choose another name") from None
+    print(f"wrote {path}; run it with: sectionwave run {path}", file=sys.stderr)
     return EXIT_OK
 
 
@@ -130,6 +302,32 @@ class _BadInput(Exception):
     pass
 
 
+def _interrupt(signum: int, frame: Any) -> None:
+    raise KeyboardInterrupt
+
+
+@contextlib.contextmanager
+def _sigterm_as_interrupt() -> Iterator[None]:
+    """SIGTERM raises KeyboardInterrupt, as Ctrl-C does (staging removed, exit 130)."""
+    try:
+        old: Callable[..., Any] | int | None = signal.signal(signal.SIGTERM, _interrupt)
+    except ValueError:  # not the main thread: leave signals alone
+        yield
+        return
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, old)
+
+
+def _dispatch(args: argparse.Namespace) -> int:
+    if args.command == "run":
+        return _run(args)
+    if args.command == "new":
+        return _new(args)
+    return _inspect(args)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``sectionwave`` command; returns the exit code."""
     from sectionwave.importers.errors import SectionwaveError
@@ -139,16 +337,23 @@ def main(argv: Sequence[str] | None = None) -> int:
     if args.verbose and not getattr(args, "quiet", False):
         level = logging.INFO
     _configure_log(level)
+    started = time.perf_counter()
     try:
-        if args.command == "run":
-            return _run(args)
-        return _inspect(args)
+        with _sigterm_as_interrupt():
+            return _dispatch(args)
     except (_BadInput, SectionwaveError) as exc:
         print(f"sectionwave: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
-        print("sectionwave: interrupted; nothing was written", file=sys.stderr)
-        return 130
+        print(f"sectionwave: interrupted after {time.perf_counter() - started:.0f} s; nothing was written",
+              file=sys.stderr)
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:
+        # the reader of standard output went away (``sectionwave inspect ... | head``): stop quietly
+        with contextlib.suppress(OSError):
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
     except Exception as exc:  # noqa: BLE001 - the one place that maps failures to an exit code
         print(f"sectionwave: internal error: {type(exc).__name__}: {exc}", file=sys.stderr)
         return EXIT_FAILURE

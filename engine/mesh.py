@@ -409,7 +409,10 @@ def build_panels(
             else:
                 out.append(pc)
             if len(out) > MAX_PANELS:
-                raise GeometryError(f"the mesh would need more than {MAX_PANELS} panels; check units")
+                raise GeometryError(
+                    f"the mesh would need more than {MAX_PANELS} panels to follow the geometry to the "
+                    f"tolerance {tolerance:.0e} with {p} nodes per panel; loosen the tolerance or raise nodes_per_panel"
+                )
         contours[ci] = out
 
     mesh = _to_mesh(p, segments, contours, boundaries)

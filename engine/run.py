@@ -80,7 +80,8 @@ def solve_problem(
     problem
         The physics problem.
     progress
-        Called with a short message as each frequency starts.
+        Called with a short message as each frequency starts (with an
+        estimate of the time left) and after each adaptive refinement.
     solver
         The linear solver (default dense LU).
 
@@ -92,10 +93,13 @@ def solve_problem(
     active: LinearSolver = solver if solver is not None else DenseLU()
     layout = scene_layout(problem)
     results = []
+    total = len(problem.frequencies_hz)
     for n, freq in enumerate(problem.frequencies_hz):
         if progress is not None:
-            progress(f"frequency {n + 1}/{len(problem.frequencies_hz)}: {freq:.6g} Hz")
-        results.append(_solve_frequency(_Scene(problem, layout, freq), active))
+            spent = time.perf_counter() - start
+            left = f" (about {spent / n * (total - n):.0f} s left)" if n else ""
+            progress(f"frequency {n + 1}/{total}: {freq:.6g} Hz{left}")
+        results.append(_solve_frequency(_Scene(problem, layout, freq), active, progress))
     s = problem.solver
     settings = RunSettings(s.tolerance, s.nodes_per_panel, panel_wavelengths(problem), s.max_refinements, METHOD)
     return RunResult(problem, results, settings, time.perf_counter() - start)
@@ -237,7 +241,9 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
     return mesh, notes
 
 
-def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
+def _solve_frequency(
+    scene: _Scene, solver: LinearSolver, progress: Callable[[str], None] | None = None
+) -> FrequencySolution:
     problem, freq = scene.problem, scene.frequency_hz
     k = scene.k
     lam = problem.wavelength(freq)
@@ -280,6 +286,7 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         max_refinements=problem.solver.max_refinements,
         fits=fits,
         where=f"at {freq:.6g} Hz",
+        progress=progress,
     )
     mesh = adaptive.mesh
     solution = adaptive.last.solution

@@ -41,8 +41,8 @@ def test_run_writes_results_and_summary(tmp_path, capsys):
     summary = json.loads((out / "summary.json").read_text())
     assert summary["schema"] == "sectionwave.summary/1"
     assert "infinitely long" in summary["caution"]
-    header = (out / "farfield.csv").read_text().splitlines()[1]
-    for col in ("frequency_hz", "from_deg", "angle_deg", "farfield_re", "farfield_im",
+    header = (out / "farfield.csv").read_text().splitlines()[0]
+    for col in ("frequency_hz", "from_deg", "angle_deg", "farfield_re_sqrt_m", "farfield_im_sqrt_m",
                 "echo_width_m", "echo_width_db_m", "echo_width_db_lambda"):
         assert col in header.split(",")
     assert (out / "monostatic.csv").exists() and (out / "surface.csv").exists()
@@ -60,8 +60,8 @@ def test_physics_convention_is_the_complex_conjugate(tmp_path):
     from sectionwave.engine.export import read_csv
 
     a, b = read_csv(tmp_path / "a" / "farfield.csv"), read_csv(tmp_path / "b" / "farfield.csv")
-    assert (a["farfield_re"] == b["farfield_re"]).all()
-    assert (a["farfield_im"] == -b["farfield_im"]).all()  # exact conjugate
+    assert (a["farfield_re_sqrt_m"] == b["farfield_re_sqrt_m"]).all()
+    assert (a["farfield_im_sqrt_m"] == -b["farfield_im_sqrt_m"]).all()  # exact conjugate
 
 
 def test_bad_case_gives_exit_code_2_and_one_line(tmp_path, capsys):

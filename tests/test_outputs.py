@@ -68,7 +68,7 @@ def test_vtu_files_read_back_and_match_the_csv(sweep):
     mesh = meshio.read(out / "boundary_f000_i000.vtu")
     # round trip, exact: the boundary file holds the same surface values as the CSV
     assert np.array_equal(mesh.point_data["u_re"], surface["u_re"][first])
-    assert np.array_equal(mesh.point_data["dudn_im"], surface["dudn_im"][first])
+    assert np.array_equal(mesh.point_data["dudn_im"], surface["dudn_im_per_m"][first])
     assert np.allclose(mesh.points[:, 0], surface["x_m"][first], atol=0)
     grid = meshio.read(out / "nearfield_f000_i000.vtu")
     assert grid.points.shape[0] == 40 * 30

@@ -79,8 +79,18 @@ def _save(figure: Figure, path: str | os.PathLike[str], file_format: str) -> Pat
     return atomic_write_bytes(path, buffer.getvalue())
 
 
+_MARKERS = ("", "o", "s", "^", "v", "D", "x", "+", "<", ">", "p", "*")
+_DASHES: tuple[str | tuple[int, tuple[int, ...]], ...] = ("-", "--", ":", "-.")
+
+
 def _style(index: int, n_points: int) -> dict[str, Any]:
-    color, dash, marker = _LINE_STYLES[index % len(_LINE_STYLES)]
+    """Colour, dash and marker of curve ``index``: no two of the first 48 curves look alike."""
+    if index < len(_LINE_STYLES):
+        color, dash, marker = _LINE_STYLES[index]
+    else:
+        color = f"C{index % 10}"
+        marker = _MARKERS[index % len(_MARKERS)]
+        dash = _DASHES[(index // len(_MARKERS)) % len(_DASHES)]
     # Markers only every few points, or they hide the curve on fine sweeps.
     every = max(1, n_points // 12)
     return {"color": color, "linestyle": dash, "marker": marker, "markevery": every}

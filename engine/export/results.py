@@ -26,6 +26,7 @@ from __future__ import annotations
 import json
 import math
 import platform
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -80,10 +81,10 @@ def write_run(
     written: list[str] = []
 
     ff_rows: dict[str, list[Any]] = {k: [] for k in (
-        "frequency_hz", "incident", "from_deg", "angle_deg", "farfield_re", "farfield_im",
+        "frequency_hz", "incident", "from_deg", "angle_deg", "farfield_re_sqrt_m", "farfield_im_sqrt_m",
         "echo_width_m", "echo_width_db_m", "echo_width_db_lambda")}
     mono_rows: dict[str, list[Any]] = {k: [] for k in (
-        "frequency_hz", "from_deg", "farfield_re", "farfield_im",
+        "frequency_hz", "incident", "from_deg", "farfield_re_sqrt_m", "farfield_im_sqrt_m",
         "echo_width_m", "echo_width_db_m", "echo_width_db_lambda")}
     surf_rows: dict[str, list[Any]] = {}
     for fr in result.frequencies:
@@ -95,8 +96,8 @@ def write_run(
             ff_rows["incident"].append(np.full(na, wave.name))
             ff_rows["from_deg"].append(np.full(na, wave.from_deg))
             ff_rows["angle_deg"].append(fr.angles_deg)
-            ff_rows["farfield_re"].append(ff[:, m].real)
-            ff_rows["farfield_im"].append(ff[:, m].imag)
+            ff_rows["farfield_re_sqrt_m"].append(ff[:, m].real)
+            ff_rows["farfield_im_sqrt_m"].append(ff[:, m].imag)
             ff_rows["echo_width_m"].append(ew["m"][:, m])
             ff_rows["echo_width_db_m"].append(ew["db_m"][:, m])
             ff_rows["echo_width_db_lambda"].append(ew["db_lambda"][:, m])
@@ -105,12 +106,15 @@ def write_run(
             mono = _conv(fr.monostatic[plane], conv)
             mono_ew = echo_width(mono, fr.wavelength_m)
             mono_rows["frequency_hz"].append(np.full(len(plane), fr.frequency_hz))
+            mono_rows["incident"].append(np.array([fr.incidents[m].name for m in plane]))
             mono_rows["from_deg"].append(np.array([fr.incidents[m].from_deg for m in plane]))
-            mono_rows["farfield_re"].append(mono.real)
-            mono_rows["farfield_im"].append(mono.imag)
+            mono_rows["farfield_re_sqrt_m"].append(mono.real)
+            mono_rows["farfield_im_sqrt_m"].append(mono.imag)
             mono_rows["echo_width_m"].append(mono_ew["m"])
             mono_rows["echo_width_db_m"].append(mono_ew["db_m"])
             mono_rows["echo_width_db_lambda"].append(mono_ew["db_lambda"])
+        if not options.surface_csv:
+            continue
         surf = fr.surface()
         mesh = surf.mesh
         phys = _surface(result, fr)
@@ -130,10 +134,10 @@ def write_run(
             }
             u = _conv(surf.u[:, m], conv)
             dudn = _conv(surf.dudn[:, m], conv)
-            block.update({"u_re": u.real, "u_im": u.imag, "dudn_re": dudn.real, "dudn_im": dudn.imag})
+            block.update({"u_re": u.real, "u_im": u.imag, "dudn_re_per_m": dudn.real, "dudn_im_per_m": dudn.imag})
             if surf.dudn_inside is not None:
                 inner = _conv(surf.dudn_inside[:, m], conv)
-                block.update({"dudn_inside_re": inner.real, "dudn_inside_im": inner.imag})
+                block.update({"dudn_inside_re_per_m": inner.real, "dudn_inside_im_per_m": inner.imag})
             for name, values in phys.items():
                 v = _conv(values[:, m], conv)
                 stem, unit = _split_unit(name)
@@ -142,20 +146,26 @@ def write_run(
             for key, val in block.items():
                 surf_rows.setdefault(key, []).append(val)
 
-    header = f"sectionwave results; time convention {conv}; {CAUTION}"
-    write_csv(out_dir / "farfield.csv", {k: np.concatenate(v) for k, v in ff_rows.items()}, header_comment=header)
+    # CSVs open with their header row; what a comment line would say is in README.txt
+    write_csv(out_dir / "farfield.csv", {k: np.concatenate(v) for k, v in ff_rows.items()})
     written.append("farfield.csv")
     if mono_rows["frequency_hz"]:
-        write_csv(out_dir / "monostatic.csv", {k: np.concatenate(v) for k, v in mono_rows.items()}, header_comment=header)
+        write_csv(out_dir / "monostatic.csv", {k: np.concatenate(v) for k, v in mono_rows.items()})
         written.append("monostatic.csv")
-    write_csv(out_dir / "surface.csv", {k: np.concatenate(v) for k, v in surf_rows.items()}, header_comment=header)
-    written.append("surface.csv")
+    if surf_rows:
+        write_csv(out_dir / "surface.csv", {k: np.concatenate(v) for k, v in surf_rows.items()})
+        written.append("surface.csv")
     if options.vtk:
-        written += _write_boundary_vtk(result, out_dir, conv)
+        written += _write_boundary_vtk(result, out_dir, conv, per_incidence=options.vtk_per_incidence)
     if any(fr.near_field is not None for fr in result.frequencies):
-        written += _write_near_fields(result, out_dir, conv, plots=options.plots)
+        written += _write_near_fields(result, out_dir, conv, options)
+    plot_notes: list[str] = []
     if options.plots:
-        written += _write_plots(result, out_dir)
+        written += _write_plots(result, out_dir, options, plot_notes)
+    written.append("README.txt")
+    atomic_write_text(out_dir / "README.txt", folder_readme(result, options, conv, written + ["summary.json"]))
+    if plot_notes:
+        options = replace(options, notes=(*options.notes, *plot_notes))
     summary = summary_dict(result, options, conv, written + ["summary.json"])
     atomic_write_text(out_dir / "summary.json", json.dumps(summary, indent=2, allow_nan=False, default=_json_default) + "\n")
     return written + ["summary.json"]
@@ -249,6 +259,7 @@ def summary_dict(
         },
         "drawing_audit": options.drawing_audit,
         "notes": list(options.notes),
+        "warnings": list(options.warnings),
         "frequencies": freqs,
         "estimated_error_max": _finite(max((fr.estimated_error for fr in result.frequencies), default=math.nan)),
         "elapsed_s": result.elapsed_s,
@@ -283,7 +294,13 @@ def _body_summary(b: Scatterer) -> dict[str, Any]:
     return entry
 
 
-def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention) -> list[str]:
+def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention, *, per_incidence: bool = True) -> list[str]:
+    """Boundary ``.vtu`` files: one per (frequency, incident wave), or one per frequency.
+
+    With ``per_incidence=False`` each frequency's file holds every incident
+    wave, its arrays suffixed ``_i000``, ``_i001``, ... in the order of
+    ``farfield.csv``; the sweep table then has ``from_deg`` NaN (all waves).
+    """
     from .vtk import write_boundary_vtu, write_sweep_pvd
 
     runs = []
@@ -292,24 +309,33 @@ def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention) 
         surf = fr.surface()
         mesh = surf.mesh
         phys = _surface(result, fr)
-        for m, wave in enumerate(fr.incidents):
-            name = f"boundary_f{nf:03d}_i{m:03d}.vtu"
-            fields = {"u": surf.u[:, m], "dudn": surf.dudn[:, m]}
-            if surf.dudn_inside is not None:
-                fields["dudn_inside"] = surf.dudn_inside[:, m]
-            fields.update({k: v[:, m] for k, v in phys.items()})
+        groups = [[m] for m in range(len(fr.incidents))] if per_incidence else [list(range(len(fr.incidents)))]
+        for group in groups:
+            fields: dict[str, np.ndarray] = {}
+            for m in group:
+                tag = "" if per_incidence else f"_i{m:03d}"
+                fields[f"u{tag}"] = surf.u[:, m]
+                fields[f"dudn{tag}"] = surf.dudn[:, m]
+                if surf.dudn_inside is not None:
+                    fields[f"dudn_inside{tag}"] = surf.dudn_inside[:, m]
+                fields.update({f"{k}{tag}": v[:, m] for k, v in phys.items()})
+            if per_incidence:
+                wave = fr.incidents[group[0]]
+                name, from_deg = f"boundary_f{nf:03d}_i{group[0]:03d}.vtu", wave.from_deg
+            else:
+                name, from_deg = f"boundary_f{nf:03d}.vtu", math.nan
             write_boundary_vtu(
                 out_dir / name, mesh.nodes, mesh.normals, mesh.body_of_node, mesh.contour_of_node,
                 fields, real_fields={"arc_weight_m": mesh.weights}, convention=conv,
-                metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": wave.from_deg},
+                metadata={"frequency_hz": fr.frequency_hz, "from_deg": from_deg},
             )
-            runs.append((fr.frequency_hz, wave.from_deg, name))
+            runs.append((fr.frequency_hz, from_deg, name))
             names.append(name)
     write_sweep_pvd(out_dir / "boundary.pvd", runs)
     return names + ["boundary.pvd", "boundary_steps.csv"]
 
 
-def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, *, plots: bool) -> list[str]:
+def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, options: OutputOptions) -> list[str]:
     """nearfield.csv, probes.csv, one grid .vtu per (frequency, incident wave), nearfield.pvd, field maps."""
     from .plots import plot_field_map
     from .vtk import write_grid_vtu, write_sweep_pvd
@@ -319,6 +345,13 @@ def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, *
     probe_rows: dict[str, list[Any]] = {}
     runs = []
     outlines = [s.body.outer.sample(64) for s in result.problem.scatterers]
+    fsel, wsel = _pick_for_plots(result, options)
+    field, symbol = _FIELD_WORDS[result.problem.field]
+    head = f"{options.title}: " if options.title and options.title != "untitled" else ""
+    quantity = options.field_map
+    bar = {"abs": f"|total {symbol}| per unit incident amplitude",
+           "db": f"total {symbol}: 20 log10 |u / u_inc amplitude| (dB)",
+           "real": f"Re total {symbol} per unit incident amplitude (field at t = 0)"}[quantity]
     for nf, fr in enumerate(result.frequencies):
         near = fr.near_field
         if near is None:
@@ -338,8 +371,8 @@ def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, *
                 values = {n: getattr(samples, n)[..., slot].ravel() for n in ("total", "scattered", "incident")}
                 block: dict[str, Any] = {
                     "frequency_hz": np.full(len(pts), fr.frequency_hz),
-                    "from_deg": np.full(len(pts), wave.from_deg),
                     "incident": np.full(len(pts), wave.name),
+                    "from_deg": np.full(len(pts), wave.from_deg),
                     "x_m": pts[:, 0],
                     "y_m": pts[:, 1],
                     "inside": inside.astype(bool),
@@ -358,24 +391,24 @@ def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, *
                     out_dir / name, near.x_m, near.y_m,
                     {n: getattr(data, n)[..., slot] for n in ("total", "scattered", "incident")},
                     inside_mask=data.inside, convention=conv,
-                    metadata={"frequency_hz": fr.frequency_hz, "incidence_deg": wave.from_deg},
+                    metadata={"frequency_hz": fr.frequency_hz, "from_deg": wave.from_deg},
                 )
                 written.append(name)
                 runs.append((fr.frequency_hz, wave.from_deg, name))
-                if plots and nf < 4 and slot < 3:
+                if options.plots and nf in fsel and m in wsel:
                     png = f"nearfield_f{nf:03d}_i{m:03d}.png"
                     plot_field_map(
                         out_dir / png, near.x_m, near.y_m, data.total[..., slot], outlines,
-                        quantity="abs", title=f"|total field|, {fr.frequency_hz:.4g} Hz, {wave.label()}",
+                        quantity=quantity, colorbar_label=bar,
+                        title=f"{head}total field, {field}, {frequency_text(fr.frequency_hz)}, {_wave_text(wave)}",
                     )
                     written.append(png)
-    header = f"sectionwave near field; time convention {conv}; NaN where inside=1 (inside an impenetrable body)"
     if grid_rows:
-        write_csv(out_dir / "nearfield.csv", {k: np.concatenate(v) for k, v in grid_rows.items()}, header_comment=header)
+        write_csv(out_dir / "nearfield.csv", {k: np.concatenate(v) for k, v in grid_rows.items()})
         write_sweep_pvd(out_dir / "nearfield.pvd", runs)
         written += ["nearfield.csv", "nearfield.pvd", "nearfield_steps.csv"]
     if probe_rows:
-        write_csv(out_dir / "probes.csv", {k: np.concatenate(v) for k, v in probe_rows.items()}, header_comment=header)
+        write_csv(out_dir / "probes.csv", {k: np.concatenate(v) for k, v in probe_rows.items()})
         written.append("probes.csv")
     return written
 
@@ -385,7 +418,69 @@ def _db_floored(farfield: np.ndarray, wavelength_m: float) -> np.ndarray:
     return np.maximum(echo_width(farfield, wavelength_m)["db_m"], DB_FLOOR)
 
 
-def _write_plots(result: RunResult, out_dir: Path) -> list[str]:
+#: Most curves one plot holds; beyond it an evenly spread selection is drawn and the rest named in a note.
+MAX_CURVES = 12
+_FIELD_WORDS = {"tm": ("TM", "E_z"), "te": ("TE", "H_z"), "acoustic": ("sound", "p")}
+
+
+def frequency_text(frequency_hz: float) -> str:
+    """A frequency in the unit an engineer would say: ``"9.4 GHz"``, ``"250 kHz"``.
+
+    Examples
+    --------
+    >>> frequency_text(9.4e9), frequency_text(2.5e5), frequency_text(50.0)
+    ('9.4 GHz', '250 kHz', '50 Hz')
+    """
+    for factor, unit in ((1e12, "THz"), (1e9, "GHz"), (1e6, "MHz"), (1e3, "kHz")):
+        if abs(frequency_hz) >= factor:
+            return f"{frequency_hz / factor:.4g} {unit}"
+    return f"{frequency_hz:.4g} Hz"
+
+
+def _wave_text(wave: Any) -> str:
+    return f"from_deg={wave.from_deg:g}" if wave.is_plane else f"{wave.name} (line source)"
+
+
+def _spread(items: list[Any], count: int) -> list[Any]:
+    """``count`` items spread evenly over ``items`` (first and last included)."""
+    if len(items) <= count:
+        return list(items)
+    picks = np.unique(np.round(np.linspace(0, len(items) - 1, count)).astype(int))
+    return [items[i] for i in picks]
+
+
+def _pick_for_plots(result: RunResult, options: OutputOptions) -> tuple[list[int], list[int]]:
+    """Frequencies and incident waves to draw: the case's selection, else an even spread within MAX_CURVES."""
+    frs = result.frequencies
+    waves = list(frs[0].incidents)
+    fsel = list(range(len(frs)))
+    wsel = list(range(len(waves)))
+    if options.plot_frequencies_hz is not None:
+        fsel = [i for i, fr in enumerate(frs)
+                if any(abs(fr.frequency_hz - f) <= 1e-9 * abs(f) for f in options.plot_frequencies_hz)]
+    if options.plot_from_deg is not None:
+        wsel = [m for m, w in enumerate(waves)
+                if w.is_plane and any(abs(w.from_deg - a) < 1e-9 for a in options.plot_from_deg)]
+    n_f = min(len(fsel), max(1, MAX_CURVES // max(1, len(wsel))), MAX_CURVES) if len(wsel) > 1 else min(len(fsel), MAX_CURVES)
+    fsel = _spread(fsel, max(1, n_f))
+    wsel = _spread(wsel, max(1, MAX_CURVES // len(fsel)))
+    return fsel, wsel
+
+
+def _selection_note(result: RunResult, fsel: list[int], wsel: list[int]) -> str | None:
+    frs = result.frequencies
+    waves = frs[0].incidents
+    total, shown = len(frs) * len(waves), len(fsel) * len(wsel)
+    if shown == total:
+        return None
+    freqs = ", ".join(frequency_text(frs[i].frequency_hz) for i in fsel)
+    which = ", ".join(_wave_text(waves[m]) for m in wsel)
+    return (f"the bistatic plots show {shown} of {total} (frequency, incident wave) curves: {freqs}; {which}; "
+            "every curve is in farfield.csv; choose others with [output] plot_frequencies_hz and plot_from_deg")
+
+
+def _write_plots(result: RunResult, out_dir: Path, options: OutputOptions, notes: list[str]) -> list[str]:
+    """Echo-width plots (bistatic, monostatic, against frequency) and the mesh preview."""
     from .plots import (
         plot_echo_width_cartesian,
         plot_echo_width_polar,
@@ -396,36 +491,88 @@ def _write_plots(result: RunResult, out_dir: Path) -> list[str]:
     written = []
     frs = result.frequencies
     fr0 = frs[0]
+    field, _ = _FIELD_WORDS[result.problem.field]
+    head = f"{options.title}: " if options.title and options.title != "untitled" else ""
+    fsel, wsel = _pick_for_plots(result, options)
+    note = _selection_note(result, fsel, wsel)
+    if note:
+        notes.append(note)
     labels: dict[str, np.ndarray] = {}
-    for fr in frs[:4]:
+    for i in fsel:
+        fr = frs[i]
         ew = echo_width(fr.farfield, fr.wavelength_m)
-        for m, wave in enumerate(fr.incidents[:3]):
-            labels[f"{fr.frequency_hz:.4g} Hz, {wave.label()}"] = ew["db_m"][:, m]
-    plot_echo_width_polar(out_dir / "echo_width_polar.png", fr0.angles_deg, labels, title="Bistatic echo width")
-    plot_echo_width_cartesian(out_dir / "echo_width.png", fr0.angles_deg, labels, title="Bistatic echo width")
+        for m in wsel:
+            labels[f"{frequency_text(fr.frequency_hz)}, {_wave_text(fr.incidents[m])}"] = ew["db_m"][:, m]
+    title = f"{head}bistatic echo width, {field}"
+    plot_echo_width_polar(out_dir / "echo_width_polar.png", fr0.angles_deg, labels, title=title)
+    plot_echo_width_cartesian(out_dir / "echo_width.png", fr0.angles_deg, labels, title=title)
     written += ["echo_width_polar.png", "echo_width.png"]
     plane = [m for m, w in enumerate(fr0.incidents) if w.is_plane]
     if len(plane) > 1:
         mono: dict[str, np.ndarray] = {}
-        for fr in frs[:4]:
-            mono[f"{fr.frequency_hz:.4g} Hz"] = _db_floored(fr.monostatic[plane], fr.wavelength_m)
+        for i in _spread(list(range(len(frs))), MAX_CURVES) if options.plot_frequencies_hz is None else fsel:
+            fr = frs[i]
+            mono[frequency_text(fr.frequency_hz)] = _db_floored(fr.monostatic[plane], fr.wavelength_m)
         angles = np.array([fr0.incidents[m].from_deg for m in plane])
-        plot_echo_width_polar(out_dir / "monostatic_polar.png", angles, mono, title="Monostatic echo width")
-        plot_echo_width_cartesian(out_dir / "monostatic.png", angles, mono, title="Monostatic echo width")
+        title = f"{head}monostatic echo width, {field}"
+        plot_echo_width_polar(out_dir / "monostatic_polar.png", angles, mono, title=title)
+        plot_echo_width_cartesian(out_dir / "monostatic.png", angles, mono, title=title)
         written += ["monostatic_polar.png", "monostatic.png"]
     if len(frs) > 1 and plane:
         curves = {}
-        for m in plane[:3]:
-            curves[f"monostatic from {fr0.incidents[m].from_deg:g} deg"] = np.array(
+        for m in [m for m in wsel if m in plane] or plane[:1]:
+            curves[f"monostatic, from_deg={fr0.incidents[m].from_deg:g}"] = np.array(
                 [_db_floored(fr.monostatic[[m]], fr.wavelength_m)[0] for fr in frs]
             )
-        plot_echo_width_vs_frequency(out_dir / "echo_width_vs_frequency.png", np.array([fr.frequency_hz for fr in frs]), curves)
+        plot_echo_width_vs_frequency(out_dir / "echo_width_vs_frequency.png", np.array([fr.frequency_hz for fr in frs]),
+                                     curves, title=f"{head}monostatic echo width against frequency, {field}")
         written.append("echo_width_vs_frequency.png")
     mesh = frs[-1].mesh
     outlines = [s.body.outer.sample(64) for s in result.problem.scatterers]
     plot_mesh_preview(
         out_dir / "mesh.png", outlines, mesh.nodes, mesh.normals, list(mesh.ends),
-        mesh.lengths / frs[-1].wavelength_m, title=f"Panels at {frs[-1].frequency_hz:.4g} Hz",
+        mesh.lengths / frs[-1].wavelength_m, title=f"{head}panels at {frequency_text(frs[-1].frequency_hz)}",
     )
     written.append("mesh.png")
     return written
+
+
+def folder_readme(result: RunResult, options: OutputOptions, convention: TimeConvention, files: list[str]) -> str:
+    """README.txt of a results folder: what every file and column holds, with units."""
+    field, symbol = _FIELD_WORDS[result.problem.field]
+    amp = {"tm": "per unit incident E_z (V/m per V/m)", "te": "per unit incident H_z (A/m per A/m)",
+           "acoustic": "per unit incident pressure (Pa per Pa)"}[result.problem.field]
+    time_factor = "exp(+j w t)" if convention == "engineering" else "exp(-i w t) (complex conjugates of the engine's values)"
+    lines = [
+        f"sectionwave results: {options.title}",
+        f"case: {options.case}",
+        f"field: {field} (u = {symbol}); time factor {time_factor}",
+        "",
+        CAUTION,
+        "",
+        "Every CSV file starts with its header row; every column name ends in its unit",
+        "(_hz, _deg, _m, _sqrt_m, _per_m, _db_m = dB re 1 m, _db_lambda = dB re 1 wavelength,",
+        "_a_per_m, _pa, _m_per_s); columns without a unit are names, indices, flags (0/1) or",
+        f"dimensionless field values. Complex fields are {amp}: the incident wave has amplitude 1.",
+        "A plane wave 'from_deg' arrives from that direction (counter-clockwise from +x);",
+        "line sources have from_deg = nan and a unit source strength.",
+        "",
+        "farfield.csv     frequency_hz, incident, from_deg, angle_deg, farfield_re_sqrt_m, farfield_im_sqrt_m,",
+        "                 echo_width_m, echo_width_db_m, echo_width_db_lambda. The far field F is defined by",
+        "                 u_scat ~ F exp(-j k r) / sqrt(r), so it is in sqrt(m) per unit incident amplitude;",
+        "                 echo width = 2 pi |F|^2 (m).",
+        "monostatic.csv   frequency_hz, incident, from_deg, then the same far-field and echo-width columns at",
+        "                 the backscatter direction (plane waves only).",
+        "surface.csv      frequency_hz, incident, from_deg, body, contour, x_m, y_m, normal_x, normal_y (unit",
+        "                 outward normal), arc_weight_m (quadrature weight), u_re, u_im (total field on the",
+        "                 boundary), dudn_re_per_m, dudn_im_per_m (its outward normal derivative) and the",
+        "                 physical surface quantity with its unit.",
+        "nearfield.csv    frequency_hz, incident, from_deg, x_m, y_m, inside (1: inside an impenetrable body,",
+        "probes.csv       fields NaN), total_re/_im, scattered_re/_im, incident_re/_im (dimensionless).",
+        "summary.json     inputs, settings, errors, cross sections, numerical warnings (key 'warnings').",
+        "*.vtu, *.pvd     the same surface and near fields for ParaView (*_steps.csv maps steps to",
+        "                 frequency_hz and from_deg).",
+        "",
+        "Files: " + ", ".join(sorted(files)),
+    ]
+    return "\n".join(lines) + "\n"

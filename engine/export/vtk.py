@@ -19,7 +19,7 @@ Boundary (``write_boundary_vtu``)
     data: ``normal`` (3 components, z = 0), ``body_id`` and ``contour_id``
     (int32), the complex fields split as above, then ``real_fields``.
 Metadata
-    Scalars such as ``frequency_hz`` or ``incidence_deg`` given as
+    Scalars such as ``frequency_hz`` or ``from_deg`` given as
     ``metadata`` are stored as VTK FieldData (one Float64 value each; meshio
     5 does not write FieldData, so it is inserted into its XML).
 Collection (``write_pvd``, ``write_sweep_pvd``)
@@ -35,8 +35,8 @@ A ``.pvd`` has a single time axis. ``write_sweep_pvd`` writes one entry per
 through every solution. Using the frequency as the time value would force
 several incidences into ``part`` slots, which ParaView overlays as one
 multiblock data set on the same grid. Each entry's ``name`` attribute reads
-``"f=<hz> Hz, phi_inc=<deg> deg"`` and a companion CSV ``<stem>_steps.csv``
-(columns ``timestep``, ``frequency_hz``, ``incidence_deg``, ``file``) maps
+``"f=<hz> Hz, from_deg=<deg>"`` and a companion CSV ``<stem>_steps.csv``
+(columns ``timestep``, ``frequency_hz``, ``from_deg``, ``file``) maps
 steps back to the sweep; the same values are in each file's FieldData when
 the files were written with ``metadata``.
 """
@@ -473,7 +473,7 @@ def write_sweep_pvd(
     ----------
     path : str or os.PathLike
         Destination, ending in ``.pvd``; its folder must exist.
-    runs : sequence of (frequency_hz, incidence_deg, file)
+    runs : sequence of (frequency_hz, from_deg, file)
         One data file per solution. Entries are sorted by frequency, then
         incidence angle.
     timestep : {"index", "frequency"}
@@ -485,7 +485,7 @@ def write_sweep_pvd(
     -------
     pathlib.Path
         The ``.pvd`` file. A companion table ``<stem>_steps.csv`` is written
-        beside it (columns ``timestep``, ``frequency_hz``, ``incidence_deg``,
+        beside it (columns ``timestep``, ``frequency_hz``, ``from_deg``,
         ``file``).
 
     Raises
@@ -521,7 +521,7 @@ def write_sweep_pvd(
     else:
         raise _fail(path, f"timestep must be 'index' or 'frequency', not {timestep!r}")
     entries = [
-        PvdEntry(step, file, 0, f"f={f:.9g} Hz, phi_inc={a:.9g} deg")
+        PvdEntry(step, file, 0, f"f={f:.9g} Hz, from_deg={a:.9g}")
         for step, (f, a, file) in zip(steps, ordered, strict=True)
     ]
     write_csv(
@@ -529,10 +529,9 @@ def write_sweep_pvd(
         {
             "timestep": np.array(steps),
             "frequency_hz": np.array([f for f, _, _ in ordered]),
-            "incidence_deg": np.array([a for _, a, _ in ordered]),
+            "from_deg": np.array([a for _, a, _ in ordered]),
             "file": np.array([file for _, _, file in ordered], dtype=str),
         },
-        header_comment=f"steps of {target.name}: one per (frequency, incidence) solution",
     )
     return write_pvd(target, entries)
 

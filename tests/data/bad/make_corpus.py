@@ -590,6 +590,173 @@ def _(path: Path) -> None:
                          '<circle id="rod" cx="50" cy="50" r="10" fill="gray"/>'))
 
 
+# ------------------------------------------------------------------------ case files
+
+
+def case_file(name: str, error: str, match: str, fix: str, about: str, *, place: str | None = None,
+              argv: list[str] | None = None) -> Callable[[Callable[[], str]], Callable[[], str]]:
+    """Register a bad case file; the function returns its text (written as UTF-8, or Latin-1 for ``*latin1``)."""
+    file = name + ".toml"
+
+    def deco(fn: Callable[[], str]) -> Callable[[], str]:
+        def write(path: Path) -> None:
+            text = fn()
+            path.write_bytes(text.encode("latin-1") if name.endswith("latin1") else text.encode("utf-8"))
+
+        _WRITERS[name] = write
+        CASES.append({
+            "name": name, "kind": "case", "file": file,
+            "argv": argv or ["run", "{file}", "--out", "out"], "api": {}, "outcome": "refused",
+            "error": error, "match": match, "place": place, "fix": fix,
+            "made_at_test_time": False, "about": about,
+        })
+        return fn
+
+    return deco
+
+
+def _toml(wave: str = 'field = "tm"\nfrequency_hz = 3e9', body: str = 'shape = { kind = "circle", radius_m = 0.05 }',
+          extra: str = "") -> str:
+    return (f'title = "bad"\n[wave]\n{wave}\n[[body]]\nname = "post"\n{body}\nboundary = "pec"\n'
+            f"[output]\nplots = false\n{extra}")
+
+
+@case_file("case_misspelt_key", "CaseError", "is not a known key here", "did you mean 'frequency_hz'?",
+           "frequency_hz misspelt: the unknown key is named with its near match", place="[wave.frequncy_hz]")
+def _() -> str:
+    return _toml(wave='field = "tm"\nfrequncy_hz = 3e9')
+
+
+@case_file("case_frequency_is_text", "CaseError", "must be a finite number", "9.4 GHz",
+           "a frequency written as a word", place="[wave.frequency_hz]")
+def _() -> str:
+    return _toml(wave='field = "tm"\nfrequency_hz = "fast"')
+
+
+@case_file("case_frequency_nan", "CaseError", "finite numbers", "must hold finite numbers",
+           "a frequency of nan", place="[wave.frequency_hz]")
+def _() -> str:
+    return _toml(wave='field = "tm"\nfrequency_hz = nan')
+
+
+@case_file("case_negative_radius", "CaseError", "must be positive", "positive",
+           "a circle of negative radius", place="[body.0.shape.radius_m]")
+def _() -> str:
+    return _toml(body='shape = { kind = "circle", radius_m = -0.05 }')
+
+
+@case_file("case_radius_in_hertz", "CaseError", "a length with units", "25 mm",
+           "a radius given in GHz", place="[body.0.shape.radius_m]")
+def _() -> str:
+    return _toml(body='shape = { kind = "circle", radius_m = "2 GHz" }')
+
+
+@case_file("case_tolerance_out_of_range", "CaseError", "must be between 1e-14 and 1e-2", "between",
+           "a tolerance of 0.5", place="[solver.tolerance]")
+def _() -> str:
+    return _toml(extra="[solver]\ntolerance = 0.5\n")
+
+
+@case_file("case_nodes_per_panel_bool", "CaseError", "must be an integer from 4 to 32", "from 4 to 32",
+           "true where a number of nodes is expected (wrong type)", place="[solver.nodes_per_panel]")
+def _() -> str:
+    return _toml(extra="[solver]\nnodes_per_panel = true\n")
+
+
+@case_file("case_wave_not_a_table", "CaseError", "must be a table", "table",
+           "wave = 3 instead of a [wave] table", place="[wave]")
+def _() -> str:
+    return 'title = "bad"\nwave = 3\n[[body]]\nshape = { kind = "circle", radius_m = 0.05 }\nboundary = "pec"\n'
+
+
+@case_file("case_unknown_boundary", "CaseError", "is 'metal'", "allowed: pec",
+           "a boundary kind that does not exist", place="[body.0.boundary]")
+def _() -> str:
+    return _toml().replace('boundary = "pec"', 'boundary = "metal"')
+
+
+@case_file("case_no_body", "CaseError", "is required", "at least one [[body]] table",
+           "a case without any body", place="[body]")
+def _() -> str:
+    return 'title = "bad"\n[wave]\nfield = "tm"\nfrequency_hz = 3e9\n'
+
+
+@case_file("case_empty", "CaseError", "is required", "[wave] with field and frequency_hz",
+           "a zero-byte case file", place="[wave]")
+def _() -> str:
+    return ""
+
+
+@case_file("case_invalid_toml", "CaseError", "invalid TOML", "correct the syntax there",
+           "a key without a value", place="line 1")
+def _() -> str:
+    return "title = \n"
+
+
+@case_file("case_not_utf8_latin1", "CaseError", "not UTF-8 text", "save the case file as UTF-8",
+           "a title with an accent written in Latin-1", place="byte")
+def _() -> str:
+    return _toml().replace('title = "bad"', 'title = "coupe \xe9paisse"')
+
+
+@case_file("case_missing_drawing", "CaseError", "does not exist", "correct the path in [geometry] file",
+           "a drawing that is not there", place="[geometry.file]")
+def _() -> str:
+    return _toml(body='layer = "HULL"', extra='[geometry]\nfile = "no_such_drawing.dxf"\n')
+
+
+@case_file("case_broken_drawing", "DrawingError", "empty", "save the drawing again",
+           "a case whose drawing is a zero-byte file (the drawing's message, under the case's key)",
+           place="[geometry.file]")
+def _() -> str:
+    return _toml(body='layer = "0"', extra='[geometry]\nfile = "dxf_empty.dxf"\n')
+
+
+@case_file("case_unknown_layer", "CaseError", "holds no closed body", "layers with bodies",
+           "a layer the drawing does not have", place="[body.0.layer]")
+def _() -> str:
+    return _toml(body='layer = "HULL"', extra='[geometry]\nfile = "dxf_duplicate_handles.dxf"\n')
+
+
+@case_file("case_overlapping_bodies", "CaseError", "overlap or touch", "move them apart",
+           "two inline circles that overlap", place="near (")
+def _() -> str:
+    return _toml() + ('[[body]]\nname = "second"\nshape = { kind = "circle", radius_m = 0.05, center_m = [0.05, 0] }\n'
+                      'boundary = "pec"\n')
+
+
+@case_file("case_line_source_inside", "CaseError", "is inside body", "outside every body",
+           "a line source inside the body", place="[incident.0.position_m]")
+def _() -> str:
+    return _toml(extra='[[incident]]\nkind = "line"\nposition_m = [0, 0]\n')
+
+
+@case_file("case_absurd_frequency", "CaseError", "is absurd", "give the frequency in Hz",
+           "9.4e15 Hz for a 10 cm post: refused from a one-line estimate, before meshing",
+           place="[wave] frequency_hz")
+def _() -> str:
+    return _toml(wave='field = "tm"\nfrequency_hz = 9.4e15')
+
+
+@case_file("case_absurd_size", "CaseError", "an absurd size", "check the drawing's units",
+           "a post of 10 000 km radius", place="[[body]] shape")
+def _() -> str:
+    return _toml(body='shape = { kind = "circle", radius_m = 1e7 }')
+
+
+@case_file("case_near_field_too_many_points", "CaseError", "at most 25 million", "at most",
+           "a near-field grid of 10^8 points", place="[near_field.count]")
+def _() -> str:
+    return _toml(extra="[near_field]\nx_m = [-1, 1]\ny_m = [-1, 1]\ncount = [10000, 10000]\n")
+
+
+@case_file("case_unwritable_output", "CaseError", "cannot create the folder", "choose another --out",
+           "--out below a plain file (an output folder that cannot be made)",
+           argv=["run", "{file}", "--out", "{file}/out"])
+def _() -> str:
+    return _toml()
+
+
 # ------------------------------------------------------------------------ main
 
 

@@ -107,7 +107,7 @@ def test_paraview_reads_sweep_and_boundary(tmp_path: Path) -> None:
                 y,
                 {"u_total": u},
                 inside_mask=inside,
-                metadata={"frequency_hz": f, "incidence_deg": a},
+                metadata={"frequency_hz": f, "from_deg": a},
             )
             runs.append((f, a, name))
             masked = u.copy()
@@ -161,7 +161,7 @@ def test_paraview_reads_sweep_and_boundary(tmp_path: Path) -> None:
         assert step["arrays"]["inside"][1:] == [0.0, 1.0]  # mask present in ParaView
         # FieldData matches the companion table: steps map back to the sweep.
         assert step["metadata"]["frequency_hz"] == steps_table["frequency_hz"][i]  # exact
-        assert step["metadata"]["incidence_deg"] == steps_table["incidence_deg"][i]  # exact
+        assert step["metadata"]["from_deg"] == steps_table["from_deg"][i]  # exact
     bnd = result["boundary"]
     assert bnd["points"] == 12 and bnd["cells"] == 12  # closed loop of 12 segments
     assert bnd["cell_type"] == 3  # VTK_LINE (vtkCellType.h)

@@ -45,7 +45,7 @@ def test_grid_round_trip(tmp_path: Path) -> None:
         {"u_total": u, "u_scat": u - 1.0},
         inside_mask=inside,
         extra_point_data={"region_id": region, "vec": np.ones((ny, nx, 3))},
-        metadata={"frequency_hz": 1.5e9, "incidence_deg": 30.0},
+        metadata={"frequency_hz": 1.5e9, "from_deg": 30.0},
     )
     mesh = read_vtu(out)
     assert isinstance(mesh, meshio.Mesh)
@@ -71,7 +71,7 @@ def test_grid_round_trip(tmp_path: Path) -> None:
     np.testing.assert_array_equal(mesh.point_data["region_id"], region.ravel())
     assert mesh.point_data["vec"].shape == (nx * ny, 3)
     assert mesh.field_data["frequency_hz"].tolist() == [1.5e9]  # FieldData, exact
-    assert mesh.field_data["incidence_deg"].tolist() == [30.0]
+    assert mesh.field_data["from_deg"].tolist() == [30.0]
     np.testing.assert_allclose(
         mesh.point_data["u_total_abs"][~inside.ravel()],
         np.abs(u[~inside]),
@@ -230,10 +230,10 @@ def test_sweep_pvd_two_dimensions(tmp_path: Path) -> None:
         "g_3e+09_0.vtu",
         "g_3e+09_90.vtu",
     ]  # sorted by frequency then incidence
-    assert entries[1].name == "f=1e+09 Hz, phi_inc=90 deg"
+    assert entries[1].name == "f=1e+09 Hz, from_deg=90"
     steps = read_csv(tmp_path / "near_steps.csv")
     assert steps["frequency_hz"].tolist() == [1e9, 1e9, 3e9, 3e9]  # companion table, exact
-    assert steps["incidence_deg"].tolist() == [0.0, 90.0, 0.0, 90.0]
+    assert steps["from_deg"].tolist() == [0.0, 90.0, 0.0, 90.0]
     assert steps["file"].tolist() == [e.file for e in entries]
     with pytest.raises(ExportError, match="one incidence per frequency"):
         write_sweep_pvd(tmp_path / "f.pvd", runs, timestep="frequency")
