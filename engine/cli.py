@@ -15,10 +15,11 @@ import sys
 import warnings
 from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
 __all__ = ["main"]
 
-EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT = 0, 1, 2
+EXIT_OK, EXIT_FAILURE, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -41,6 +42,7 @@ def _parser() -> argparse.ArgumentParser:
         "--time-convention", choices=TIME_CONVENTIONS, default=None,
         help="engineering: exp(+j w t) (default); physics: exp(-i w t), complex conjugates",
     )
+    _sweep_arguments(run)
     ins = sub.add_parser("inspect", help="show what a drawing holds and how it cleans into bodies")
     ins.add_argument("drawing")
     ins.add_argument("--units", help="drawing units when the file has none (mm, cm, m, in, ft)")
@@ -50,13 +52,23 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _sweep_arguments(run: argparse.ArgumentParser) -> None:
+    run.add_argument("--resume", action="store_true",
+                     help="finish an interrupted run of the same case: keep solved frequencies, solve the rest")
+    where = run.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, metavar="N",
+                       help="solve frequencies on a local dask cluster of N worker processes (127.0.0.1 only)")
+    where.add_argument("--scheduler", metavar="ADDRESS", help="solve on an existing dask cluster (tcp://host:port)")
+    where.add_argument("--scheduler-file", metavar="PATH", help="solve on the dask cluster of this scheduler file")
+
+
 def _say(quiet: bool, message: str) -> None:
     if not quiet:
         print(message, file=sys.stderr)
 
 
 def _run(args: argparse.Namespace) -> int:
-    from . import load_case, solve_problem, write_run
+    from . import load_case
     from .solve import ProblemTooLargeError
 
     case = load_case(args.case)
@@ -81,17 +93,47 @@ def _run(args: argparse.Namespace) -> int:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            result = solve_problem(case.problem, progress=progress)
+            outcome = _streamed_run(args, case, out, progress)
         except ProblemTooLargeError as exc:
             raise _BadInput(
                 f"{case.output.case}: {exc} (case keys: [wave] frequency_hz, [solver] tolerance)"
             ) from None
-    write_run(result, out, case.output, force=args.force, convention=args.time_convention)
-    for w in caught:
-        _say(args.quiet, f"warning: {w.message}")
+    for text in dict.fromkeys([str(w.message) for w in caught] + outcome.notes):
+        _say(args.quiet, f"warning: {text}")
+    if outcome.result is None:
+        kept = len(outcome.sweep.solutions)
+        _say(args.quiet, f"stopped: {kept} of {len(case.problem.frequencies_hz)} frequencies solved and kept in "
+                         f"{outcome.sweep_folder}; finish with --resume")
+        return EXIT_INTERRUPTED
+    result = outcome.result
+    if outcome.sweep.kept:
+        _say(args.quiet, f"resumed: kept {len(outcome.sweep.kept)} frequencies, solved {len(outcome.sweep.solved_now)}")
     worst = max(fr.estimated_error for fr in result.frequencies)
     _say(args.quiet, f"wrote {out} ({len(result.frequencies)} frequencies, estimated error {worst:.1e})")
     return EXIT_OK
+
+
+def _streamed_run(args: argparse.Namespace, case: Any, out: Path, progress: Any) -> Any:
+    """Solve frequency by frequency into the sweep folder, then write ``out`` (see ``batch``)."""
+    from .batch import BatchError, BatchOptions, case_digest, run_case
+
+    if args.workers is not None and args.workers < 1:
+        raise _BadInput(f"--workers must be at least 1, got {args.workers}")
+    if args.resume and args.case == "-":
+        raise _BadInput("--resume needs a case file, not standard input")
+    digest = case_digest(args.case) if args.case != "-" else "stdin"
+    options = BatchOptions(
+        resume=args.resume, force=args.force, convention=args.time_convention, workers=args.workers,
+        scheduler=args.scheduler, scheduler_file=args.scheduler_file,
+    )
+    try:
+        outcome = run_case(case, digest, out, options, say=lambda m: _say(args.quiet, m), progress=progress)
+    except BatchError as exc:
+        raise _BadInput(str(exc)) from None
+    if options.distributed or outcome.sweep.kept:
+        # warnings raised in other processes or earlier runs travel with the solutions
+        outcome.notes = [w for fr in outcome.sweep.solutions.values() for w in fr.warnings]
+    return outcome
 
 
 def _inspect(args: argparse.Namespace) -> int:
@@ -147,8 +189,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"sectionwave: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
-        print("sectionwave: interrupted; nothing was written", file=sys.stderr)
-        return 130
+        print("sectionwave: interrupted; the results folder was not written", file=sys.stderr)
+        return EXIT_INTERRUPTED
     except Exception as exc:  # noqa: BLE001 - the one place that maps failures to an exit code
         print(f"sectionwave: internal error: {type(exc).__name__}: {exc}", file=sys.stderr)
         return EXIT_FAILURE

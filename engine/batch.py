@@ -1,0 +1,238 @@
+"""Run a case into a results folder: streamed to disk, resumable, stoppable, on a cluster.
+
+Glossary
+--------
+streamed run
+    Every frequency's solution is stored in the sweep folder (see
+    ``export.partial``) as soon as it is solved; the results folder is
+    written from the stored solutions at the end, by the usual writer, and
+    appears at once (staged, then renamed). The sweep folder is then removed.
+resume
+    ``--resume`` keeps the solutions in the sweep folder of the same case
+    (same case hash, same program version), solves only the missing
+    frequencies, and writes the same files an uninterrupted run writes (the
+    CSV tables byte for byte). A changed case is refused in one line.
+stop
+    SIGINT (Ctrl-C) or SIGTERM finish the frequency under way, keep it, and
+    stop: the sweep folder holds what was solved and ``--resume`` continues.
+    A second Ctrl-C stops at once (the frequency under way is lost).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import signal
+import threading
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import tomllib
+from sectionwave.importers.errors import SectionwaveError
+
+from .case import Case
+from .export.partial import SweepFolder, SweepMismatchError, case_hash, sweep_folder_for
+from .results import FrequencySolution, RunResult
+from .sweep import Executor, StopRequest, SweepOutcome, solve_sweep
+
+__all__ = ["BatchError", "BatchOptions", "BatchOutcome", "case_digest", "run_case", "stop_on_signals"]
+
+
+class BatchError(SectionwaveError):
+    """A run cannot start as asked (a sweep folder in the way, a changed case on resume)."""
+
+
+@dataclass(frozen=True)
+class BatchOptions:
+    """How to run: resume, replace, convention, and where to solve.
+
+    ``workers`` starts a local cluster; ``scheduler`` / ``scheduler_file``
+    use an existing one; none of them solves in this process.
+    """
+
+    resume: bool = False
+    force: bool = False
+    convention: Any = None
+    workers: int | None = None
+    scheduler: str | None = None
+    scheduler_file: str | None = None
+
+    @property
+    def distributed(self) -> bool:
+        """True when frequencies are solved on a dask cluster."""
+        return self.workers is not None or self.scheduler is not None or self.scheduler_file is not None
+
+
+@dataclass
+class BatchOutcome:
+    """What a run did: the results (None when stopped), the sweep, the folders."""
+
+    result: RunResult | None
+    sweep: SweepOutcome
+    out: Path
+    sweep_folder: Path
+    executor: str
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def stopped(self) -> bool:
+        """True when the run stopped before every frequency was solved."""
+        return self.result is None
+
+
+def case_digest(case_path: str | Path) -> str:
+    """The case hash: the case file and every file it reads (drawing, probe list)."""
+    path = Path(case_path)
+    data = path.read_bytes()
+    base = path.resolve().parent
+    files: list[Path] = []
+    with contextlib.suppress(ValueError, UnicodeDecodeError):
+        doc = tomllib.loads(data.decode("utf-8"))
+        for table, key in (("geometry", "file"), ("near_field", "probes_csv")):
+            value = doc.get(table, {}).get(key) if isinstance(doc.get(table), dict) else None
+            if isinstance(value, str):
+                p = Path(value)
+                files.append(p if p.is_absolute() else base / p)
+    return case_hash(data, files)
+
+
+@contextlib.contextmanager
+def stop_on_signals(stop: StopRequest, say: Callable[[str], None]) -> Iterator[None]:
+    """Within the block, SIGINT and SIGTERM set ``stop``; a second SIGINT raises KeyboardInterrupt."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+
+    def handler(signum: int, frame: Any) -> None:
+        name = signal.Signals(signum).name
+        if stop.requested and signum == signal.SIGINT:
+            raise KeyboardInterrupt
+        stop.set(name)
+        say(f"{name}: stopping after the frequency under way (Ctrl-C again to stop at once)")
+
+    previous = {s: signal.getsignal(s) for s in (signal.SIGINT, signal.SIGTERM)}
+    for s in previous:
+        signal.signal(s, handler)
+    try:
+        yield
+    finally:
+        for s, h in previous.items():
+            signal.signal(s, h)
+
+
+def _prepare_folder(folder: SweepFolder, digest: str, version: str, options: BatchOptions,
+                    frequencies: list[float]) -> dict[float, FrequencySolution]:
+    """Check or start the sweep folder; the solutions a resume keeps."""
+    if folder.exists and options.resume:
+        try:
+            folder.check(digest, version)
+        except SweepMismatchError as exc:
+            raise BatchError(str(exc)) from None
+        return folder.load()
+    if folder.folder.exists() and not options.force:
+        kept = len(folder.frequencies()) if folder.exists else 0
+        raise BatchError(
+            f"{folder.folder}: an interrupted run left {kept} solved frequencies here; "
+            "pass --resume to finish it, or --force to start over"
+        )
+    folder.start(digest, version, frequencies)
+    return {}
+
+
+@contextlib.contextmanager
+def _executor(options: BatchOptions) -> Iterator[Executor | None]:
+    if not options.distributed:
+        yield None
+        return
+    from .cluster import open_executor
+
+    with open_executor(workers=options.workers, scheduler=options.scheduler,
+                       scheduler_file=options.scheduler_file) as ex:
+        yield ex
+
+
+def run_case(
+    case: Case,
+    digest: str,
+    out: str | Path,
+    options: BatchOptions,
+    *,
+    say: Callable[[str], None] = lambda _msg: None,
+    progress: Callable[[str], None] | None = None,
+) -> BatchOutcome:
+    """Solve ``case`` frequency by frequency, storing each, and write the results folder.
+
+    Parameters
+    ----------
+    case
+        The loaded case.
+    digest
+        Its hash (:func:`case_digest`), checked on resume.
+    out
+        The results folder.
+    options
+        Resume, force, convention and where to solve.
+    say
+        Receives one-line notes for the user (stop requests).
+    progress
+        Receives a line per solved frequency.
+
+    Returns
+    -------
+    BatchOutcome
+        ``result`` is None when a stop request ended the run early.
+    """
+    from . import __version__
+    from .run import assemble_result
+
+    start = time.perf_counter()
+    problem = case.problem
+    frequencies = [float(f) for f in problem.frequencies_hz]
+    folder = SweepFolder(sweep_folder_for(out))
+    done = _prepare_folder(folder, digest, __version__, options, frequencies)
+    stop = StopRequest()
+    count = [len([f for f in frequencies if f in done])]
+
+    def solved(solution: FrequencySolution) -> None:
+        folder.save(solution)
+        count[0] += 1
+        if progress is not None:
+            progress(f"solved {solution.frequency_hz:.6g} Hz ({count[0]}/{len(frequencies)})")
+
+    with stop_on_signals(stop, say), _executor(options) as ex:
+        description = ex.description if ex is not None else "in-process"
+        sweep = solve_sweep(problem, frequencies, done=done, executor=ex, stop=stop, on_solved=solved)
+    outcome = BatchOutcome(None, sweep, Path(out), folder.folder, description)
+    if sweep.stopped:
+        return outcome
+    outcome.result = assemble_result(problem, sweep.ordered(frequencies), time.perf_counter() - start)
+    _write(outcome, case, options)
+    folder.remove()
+    return outcome
+
+
+def _write(outcome: BatchOutcome, case: Case, options: BatchOptions) -> None:
+    """The results folder from the assembled result, staged and renamed into place."""
+    from .export.atomic import atomic_write_text, staged_output_dir
+    from .export.results import write_run
+
+    assert outcome.result is not None
+    with staged_output_dir(outcome.out, force=options.force) as staging:
+        write_run(outcome.result, staging, case.output, convention=options.convention)
+        _add_sweep_summary(staging / "summary.json", outcome, atomic_write_text)
+
+
+def _add_sweep_summary(path: Path, outcome: BatchOutcome, write_text: Callable[[Path, str], Any]) -> None:
+    """Add the ``sweep`` entry to summary.json: what was solved now, what was kept, where."""
+    summary = json.loads(path.read_text(encoding="utf-8"))
+    sweep = outcome.sweep
+    summary["sweep"] = {
+        "executor": outcome.executor,
+        "solved_now": len(sweep.solved_now),
+        "kept_from_earlier_run": len(sweep.kept),
+        "solved_now_hz": sorted(sweep.solved_now),
+    }
+    write_text(path, json.dumps(summary, indent=2, allow_nan=False) + "\n")
