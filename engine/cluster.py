@@ -33,7 +33,7 @@ from .results import FrequencySolution
 from .run import solve_frequency
 from .sweep import StopRequest
 
-__all__ = ["ALLOWED_FAILURES", "RETRIES", "THREAD_VARIABLES", "DaskExecutor", "open_executor"]
+__all__ = ["ALLOWED_FAILURES", "RETRIES", "THREAD_VARIABLES", "DaskExecutor", "dask_setup", "open_executor"]
 
 #: Retries of a task that raised (a transient failure on one worker).
 RETRIES = 2
@@ -46,8 +46,24 @@ THREAD_VARIABLES = {
     "MKL_NUM_THREADS": "1",
     "NUMBA_NUM_THREADS": "1",
 }
+#: Environment of each local worker beyond the threads: the client reports, workers keep quiet.
+WORKER_QUIET = {"DASK_LOGGING__DISTRIBUTED": "error"}
 
 _log = logging.getLogger("sectionwave.cluster")
+
+
+def dask_setup(worker: Any) -> None:
+    """Preload of local workers: ignore SIGINT.
+
+    Ctrl-C at the terminal reaches the whole process group, but only the
+    client decides when to stop (after the frequency under way, then it
+    closes the cluster).
+    """
+    import signal
+    import threading
+
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
 
 
 def _solve_task(problem: Problem, frequency_hz: float) -> FrequencySolution:
@@ -87,7 +103,7 @@ class DaskExecutor:
             for n, f in enumerate(frequencies_hz)
         ]
         try:
-            for future in as_completed(futures):
+            for future in as_completed(futures, loop=self.client.loop):
                 solution = future.result()
                 yield solution
                 if stop.requested:
@@ -111,7 +127,8 @@ def _local_cluster(workers: int) -> Any:
             processes=True,
             host="127.0.0.1",
             dashboard_address="127.0.0.1:0",
-            env=dict(THREAD_VARIABLES),
+            env={**THREAD_VARIABLES, **WORKER_QUIET},
+            preload=[__name__],
         )
 
 
