@@ -25,14 +25,15 @@ import json
 import signal
 import threading
 import time
-from collections.abc import Callable, Iterator
-from dataclasses import dataclass, field
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
 import tomllib
 from sectionwave.importers.errors import SectionwaveError
 
+from .adaptive_frequency import AdaptiveResult, adaptive_sweep
 from .case import Case
 from .export.partial import SweepFolder, SweepMismatchError, case_hash, sweep_folder_for
 from .results import FrequencySolution, RunResult
@@ -76,6 +77,7 @@ class BatchOutcome:
     sweep_folder: Path
     executor: str
     notes: list[str] = field(default_factory=list)
+    fit: AdaptiveResult | None = None
 
     @property
     def stopped(self) -> bool:
@@ -194,24 +196,62 @@ def run_case(
     folder = SweepFolder(sweep_folder_for(out))
     done = _prepare_folder(folder, digest, __version__, options, frequencies)
     stop = StopRequest()
-    count = [len([f for f in frequencies if f in done])]
+    count = [0]
 
     def solved(solution: FrequencySolution) -> None:
         folder.save(solution)
         count[0] += 1
         if progress is not None:
-            progress(f"solved {solution.frequency_hz:.6g} Hz ({count[0]}/{len(frequencies)})")
+            total = "" if case.adaptive is not None else f" ({count[0]}/{len(frequencies)})"
+            progress(f"solved {solution.frequency_hz:.6g} Hz{total}")
 
     with stop_on_signals(stop, say), _executor(options) as ex:
         description = ex.description if ex is not None else "in-process"
-        sweep = solve_sweep(problem, frequencies, done=done, executor=ex, stop=stop, on_solved=solved)
+        if case.adaptive is None:
+            sweep = solve_sweep(problem, frequencies, done=done, executor=ex, stop=stop, on_solved=solved)
+            fit = None
+        else:
+            sweep, fit = _adaptive(case, done, ex, stop, solved)
     outcome = BatchOutcome(None, sweep, Path(out), folder.folder, description)
-    if sweep.stopped:
+    if fit is None and case.adaptive is not None or sweep.stopped:
         return outcome
+    if fit is not None:
+        problem = replace(problem, frequencies_hz=tuple(s.frequency_hz for s in fit.solutions))
+        frequencies = list(problem.frequencies_hz)
     outcome.result = assemble_result(problem, sweep.ordered(frequencies), time.perf_counter() - start)
+    outcome.fit = fit
     _write(outcome, case, options)
     folder.remove()
     return outcome
+
+
+def _adaptive(
+    case: Case, done: dict[float, FrequencySolution], ex: Executor | None, stop: StopRequest,
+    solved: Callable[[FrequencySolution], None],
+) -> tuple[SweepOutcome, AdaptiveResult | None]:
+    """Adaptive sampling of the case's band; each round's frequencies solved by ``solve_sweep``."""
+    assert case.adaptive is not None
+    problem = case.problem
+    have = dict(done)
+    total = SweepOutcome({})
+
+    def solve(freqs: Sequence[float]) -> dict[float, FrequencySolution] | None:
+        part = solve_sweep(problem, freqs, done=have, executor=ex, stop=stop, on_solved=solved)
+        have.update(part.solutions)
+        total.solved_now += part.solved_now
+        total.kept += part.kept
+        if part.stopped:
+            return None
+        return {f: part.solutions[f] for f in freqs}
+
+    batch = int(getattr(ex, "workers", 1) or 1)
+    fit = adaptive_sweep(case.adaptive, solve, rtol=max(10 * problem.solver.tolerance, 1e-12), batch=batch)
+    if fit is None:
+        total.solutions = have
+        total.stopped = True
+        return total, None
+    total.solutions = {s.frequency_hz: s for s in fit.solutions}
+    return total, fit
 
 
 def _write(outcome: BatchOutcome, case: Case, options: BatchOptions) -> None:
@@ -222,7 +262,20 @@ def _write(outcome: BatchOutcome, case: Case, options: BatchOptions) -> None:
     assert outcome.result is not None
     with staged_output_dir(outcome.out, force=options.force) as staging:
         write_run(outcome.result, staging, case.output, convention=options.convention)
+        if outcome.fit is not None:
+            _write_fit(outcome.fit, outcome.result, staging, options.convention or case.output.time_convention)
         _add_sweep_summary(staging / "summary.json", outcome, atomic_write_text)
+
+
+def _write_fit(fit: AdaptiveResult, result: RunResult, staging: Path, convention: Any) -> None:
+    from .export.fitted import write_fitted_sweep
+
+    problem = result.problem
+    write_fitted_sweep(
+        staging / "fitted_sweep.csv", fit.fit_hz, [w.from_deg for w in problem.incidents],
+        problem.far_field_deg, fit.fitted, convention=convention,
+        header_comment=f"sectionwave adaptive sweep: rational (AAA) fit of the far field; time convention {convention}",
+    )
 
 
 def _add_sweep_summary(path: Path, outcome: BatchOutcome, write_text: Callable[[Path, str], Any]) -> None:
@@ -235,4 +288,15 @@ def _add_sweep_summary(path: Path, outcome: BatchOutcome, write_text: Callable[[
         "kept_from_earlier_run": len(sweep.kept),
         "solved_now_hz": sorted(sweep.solved_now),
     }
+    fit = outcome.fit
+    if fit is not None:
+        summary["files"] = [*summary.get("files", []), "fitted_sweep.csv"]
+        summary["sweep"]["adaptive"] = {
+            "solves": len(fit.solutions),
+            "converged": fit.converged,
+            "leave_one_out_db_max": fit.leave_one_out_db,
+            "fit_points": int(fit.fit_hz.size),
+            "prediction_db": [{"frequency_hz": f, "error_db": e} for f, e in fit.history],
+            "resonances": [{"frequency_hz": r.frequency_hz, "width_hz": r.width_hz} for r in fit.resonances],
+        }
     write_text(path, json.dumps(summary, indent=2, allow_nan=False) + "\n")

@@ -16,7 +16,8 @@ number, list or range
 The schema (keys may be added, never renamed)::
 
     title = "..."
-    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...,
+    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...
+                  (or an adaptive band: { start =, stop =, adaptive_db =, fit_points = 1000 }),
                   sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
     [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
     [materials.NAME]  eps_r, mu_r (number or [re, im]), loss_tangent, conductivity_s_m;
@@ -57,6 +58,7 @@ from sectionwave.importers.curves import (
 )
 from sectionwave.importers.errors import SectionwaveError
 
+from .adaptive_frequency import AdaptiveBand
 from .conventions import TIME_CONVENTIONS, TimeConvention
 from .export.options import OutputOptions
 from .problem import (
@@ -84,10 +86,16 @@ class CaseError(SectionwaveError, ValueError):
 
 @dataclass(frozen=True)
 class Case:
-    """A validated case: the physics problem for the engine and what to write."""
+    """A validated case: the physics problem for the engine and what to write.
+
+    ``adaptive`` is the band of ``frequency_hz = { start, stop, adaptive_db }``
+    (None for listed frequencies); the problem's frequencies are then the
+    band's first, equally spaced ones.
+    """
 
     problem: Problem
     output: OutputOptions
+    adaptive: AdaptiveBand | None = None
 
 
 MATERIAL_KEYS = (
@@ -314,7 +322,8 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
             raise top.fail(name, "must be a table")
     if not top.has("wave"):
         raise top.fail("wave", "is required: [wave] with field and frequency_hz")
-    field_kind, freqs, medium = _wave(_Reader(source, top.get("wave") or {}, "wave"))
+    wave_table, adaptive = _adaptive_band(_Reader(source, top.get("wave") or {}, "wave"))
+    field_kind, freqs, medium = _wave(_Reader(source, wave_table, "wave"))
 
     geometry = top.get("geometry")
     drawing = None
@@ -354,7 +363,27 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         near_field=near,
         solver=solver,
     )
-    return Case(problem, output)
+    return Case(problem, output, adaptive)
+
+
+def _adaptive_band(wave: _Reader) -> tuple[Mapping[str, Any], AdaptiveBand | None]:
+    """``frequency_hz = { start, stop, adaptive_db, fit_points }``: the band, and the table with its first frequencies."""
+    value = wave.table.get("frequency_hz")
+    if not isinstance(value, Mapping) or "adaptive_db" not in value:
+        return wave.table, None
+    allowed = {"start", "stop", "adaptive_db", "fit_points"}
+    if not {"start", "stop"} <= set(value) <= allowed:
+        raise wave.fail("frequency_hz", f"an adaptive band takes start, stop, adaptive_db and fit_points, got {sorted(value)}")
+    for key in ("start", "stop", "adaptive_db"):
+        if not _is_finite_number(value[key]) or value[key] <= 0:
+            raise wave.fail("frequency_hz", f"{key} must be a positive number, got {value[key]!r}")
+    points = value.get("fit_points", 1000)
+    if isinstance(points, bool) or not isinstance(points, int) or points < 2:
+        raise wave.fail("frequency_hz", f"fit_points must be an integer of at least 2, got {points!r}")
+    if not value["start"] < value["stop"]:
+        raise wave.fail("frequency_hz", f"start must be below stop, got {value['start']} and {value['stop']}")
+    band = AdaptiveBand(float(value["start"]), float(value["stop"]), float(value["adaptive_db"]), points)
+    return {**wave.table, "frequency_hz": list(band.initial_hz())}, band
 
 
 def _wave(wave: _Reader) -> tuple[Any, tuple[float, ...], Medium]:

@@ -86,6 +86,11 @@ class DaskExecutor:
         self.client = client
         self.description = description
 
+    @property
+    def workers(self) -> int:
+        """Workers connected now (at least 1)."""
+        return max(1, len(self.client.scheduler_info().get("workers", {})))
+
     def solve(
         self, problem: Problem, frequencies_hz: Sequence[float], stop: StopRequest
     ) -> Iterator[FrequencySolution]:
