@@ -272,28 +272,43 @@ class _Data:
         sel = np.arange(self.x.size) if rows is None else rows
         return FarFieldFit(self.x[sel], self.g[sel], rtol)
 
-    def leave_one_out(self, rtol: float) -> NDArray[np.float64]:
-        """Error in dB of each interior frequency predicted by the fit of all others (0 at the ends)."""
+    def leave_one_out(self, rtol: float) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """Where the fit is uncertain: the fits without one interior frequency against the full fit.
+
+        For each interior solved frequency ``j``, the fit of all the others is
+        compared with the fit of all, in dB, at the quarter points of the two
+        gaps beside ``j`` (which that fit has to bridge). Returns the
+        frequencies probed (three per gap) and the largest dB difference at each.
+        """
         n = self.x.size
-        err = np.zeros(n)
+        full = self.fit(None, rtol)
+        quarter = np.array([0.25, 0.5, 0.75])
+        probes = (self.x[:-1, None] + quarter[None, :] * np.diff(self.x)[:, None]).ravel()
+        reference = self.expand(full(probes))
+        score = np.zeros(probes.size)
         for j in range(1, n - 1):
-            rows = np.delete(np.arange(n), j)
-            fit = self.fit(rows, rtol)
-            err[j] = db_error(self.expand(fit(self.x[j : j + 1])), self.expand(self.g[j : j + 1]), self.peak)
-        return err
+            fit = self.fit(np.delete(np.arange(n), j), rtol)
+            near = np.arange(3 * (j - 1), 3 * (j + 1))
+            values = self.expand(fit(probes[near]))
+            for k, idx in enumerate(near):
+                err = db_error(values[k : k + 1], reference[idx : idx + 1],
+                               self.peak)
+                score[idx] = max(score[idx], err)
+        return self.center + self.half * probes, score
 
 
-def _next_frequencies(freqs: NDArray[np.float64], loo: NDArray[np.float64], tol: float, count: int,
+def _next_frequencies(probes: NDArray[np.float64], score: NDArray[np.float64], tol: float, count: int,
                       min_gap: float) -> list[float]:
-    """Midpoints of the gaps beside the worst-predicted frequencies (at most ``count``)."""
+    """The most uncertain probe frequency of each of the ``count`` worst gaps."""
     gaps = []
-    for i in range(freqs.size - 1):
-        width = freqs[i + 1] - freqs[i]
-        score = max(loo[i], loo[i + 1])
-        if width > 2 * min_gap and score >= tol:
-            gaps.append((score, width, i))
+    for g in range(probes.size // 3):
+        block = score[3 * g : 3 * g + 3]
+        width = 2 * (probes[3 * g + 2] - probes[3 * g])
+        k = int(np.argmax(block))
+        if width > 2 * min_gap and block[k] >= tol:
+            gaps.append((float(block[k]), float(probes[3 * g + k])))
     gaps.sort(reverse=True)
-    return [float(0.5 * (freqs[i] + freqs[i + 1])) for _, _, i in gaps[:count]]
+    return [f for _, f in gaps[:count]]
 
 
 def adaptive_sweep(
@@ -332,8 +347,8 @@ def adaptive_sweep(
     converged = False
     while True:
         data = _Data(band, sols)
-        loo = data.leave_one_out(rtol)
-        trusted = float(np.max(loo)) < tol
+        probes, score = data.leave_one_out(rtol)
+        trusted = float(np.max(score)) < tol
         confirmed = len(history) >= CONFIRM and all(e < tol for _, e in history[-CONFIRM:])
         if trusted and confirmed:
             converged = True
@@ -341,10 +356,12 @@ def adaptive_sweep(
         room = band.max_solves - len(sols)
         if room <= 0:
             break
-        nxt = _next_frequencies(data.freqs, loo, tol, min(batch, room), min_gap)
+        nxt = _next_frequencies(probes, score, tol, min(batch, room), min_gap)
         if not nxt:
-            # every gap is trusted (or too narrow to split): check the fit on the widest gaps
-            nxt = _next_frequencies(data.freqs, np.full(loo.size, tol), tol, min(batch, room), min_gap)
+            # every gap is trusted (or too narrow to split): check the fit in the middle of the widest gaps
+            mids = np.zeros(score.size)
+            mids[1::3] = np.repeat(np.diff(data.freqs), 1) / (data.freqs[-1] - data.freqs[0]) + tol
+            nxt = _next_frequencies(probes, mids, tol, min(batch, room), min_gap)
         if not nxt:
             break
         fit = data.fit(None, rtol)
@@ -367,7 +384,7 @@ def adaptive_sweep(
         resonances=_resonances(fit, data, band),
         history=history,
         converged=converged,
-        leave_one_out_db=float(np.max(data.leave_one_out(rtol))),
+        leave_one_out_db=float(np.max(data.leave_one_out(rtol)[1])),
     )
 
 
