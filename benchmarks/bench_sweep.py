@@ -30,6 +30,7 @@ Run: ``python benchmarks/bench_sweep.py [--quick] [--items 1,2,3] [--radius 0.2]
 from __future__ import annotations
 
 import argparse
+import os
 import shutil
 import tempfile
 import time
@@ -221,11 +222,13 @@ def main() -> None:
         print(f"1. throughput: PEC circle r = {args.radius} m, {args.count} frequencies "
               f"{args.fmin:.3g}-{args.fmax:.3g} Hz, 3 plane waves, 361 angles")
         rates = {}
+        print(f"   load average before: {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores (other work shares them)")
         for workers in (1, 2):
             rate, unknowns = throughput(workers, freqs, args.radius, folder)
             rates[workers] = rate
             print(f"   {workers} worker(s): {rate:.3f} frequencies/s (up to {unknowns} unknowns)")
         ratio = rates[2] / rates[1]
+        print(f"   load average after: {os.getloadavg()[0]:.1f}")
         print(f"   2 workers / 1 worker: {ratio:.2f} x (goal 1.7: {'met' if ratio >= 1.7 else 'NOT met'})")
         t = overhead(folder, 0.1, 3e9, args.repeats)
         print("2. one frequency (PEC circle r = 0.1 m at 3 GHz), best of", args.repeats)
