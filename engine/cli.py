@@ -101,9 +101,8 @@ def _run(args: argparse.Namespace) -> int:
     for text in dict.fromkeys([str(w.message) for w in caught] + outcome.notes):
         _say(args.quiet, f"warning: {text}")
     if outcome.result is None:
-        kept = len(outcome.sweep.solutions)
-        _say(args.quiet, f"stopped: {kept} of {len(case.problem.frequencies_hz)} frequencies solved and kept in "
-                         f"{outcome.sweep_folder}; finish with --resume")
+        kept = f"{len(outcome.sweep.solutions)}" + ("" if case.adaptive else f" of {len(case.problem.frequencies_hz)}")
+        _say(args.quiet, f"stopped: {kept} frequencies solved and kept in {outcome.sweep_folder}; finish with --resume")
         return EXIT_INTERRUPTED
     result = outcome.result
     if outcome.sweep.kept:

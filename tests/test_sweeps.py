@@ -155,3 +155,24 @@ def test_sweep_folder_skips_a_cut_short_file(tmp_path):
     assert list(loaded) == [problem.frequencies_hz[0]]
     assert (loaded[problem.frequencies_hz[0]].farfield == solution.farfield).all()
     assert os.path.isfile(folder.folder / "manifest.json")
+
+
+def test_a_stopped_adaptive_band_resumes_to_identical_files(tmp_path):
+    from tests.engine.test_adaptive_frequency import CASE as BAND
+
+    case = _case(tmp_path, BAND)
+    ref = tmp_path / "ref"
+    assert main(["run", str(case), "--out", str(ref), "--quiet"]) == 0
+    out = tmp_path / "out"
+    proc = _start(case, out)
+    _wait_for_solved(proc, out, 12)  # past the 9 equally spaced ones: inside the adaptive rounds
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=120)
+    assert proc.returncode == 130, err
+    assert main(["run", str(case), "--out", str(out), "--resume", "--quiet"]) == 0
+    _same_tables(ref, out)
+    assert (ref / "fitted_sweep.csv").read_bytes() == (out / "fitted_sweep.csv").read_bytes()
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["sweep"]["kept_from_earlier_run"] >= 12
+    assert summary["sweep"]["solved_now"] + summary["sweep"]["kept_from_earlier_run"] == \
+        summary["sweep"]["adaptive"]["solves"]
