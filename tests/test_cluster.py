@@ -21,15 +21,9 @@ import pytest
 from sectionwave.engine.cluster import THREAD_VARIABLES
 from sectionwave.engine.export.partial import sweep_folder_for
 
-from .test_sweeps import CASE, TABLES
+from .test_sweeps import _case, _same_tables
 
 ENV = {**os.environ, **THREAD_VARIABLES}
-
-
-def _case(tmp_path: Path) -> Path:
-    path = tmp_path / "case.toml"
-    path.write_text(CASE)
-    return path
 
 
 def _start(case: Path, out: Path, *extra: str, session: bool = False) -> subprocess.Popen[str]:
@@ -75,11 +69,6 @@ def _gone(pids: set[int], timeout_s: float = 20) -> list[int]:
     while _alive(pids) and time.monotonic() < end:
         time.sleep(0.1)
     return _alive(pids)
-
-
-def _same_tables(a: Path, b: Path) -> None:
-    for name in TABLES:
-        assert (a / name).read_bytes() == (b / name).read_bytes(), name
 
 
 @pytest.fixture(scope="module")
