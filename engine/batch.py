@@ -78,6 +78,7 @@ class BatchOutcome:
     executor: str
     notes: list[str] = field(default_factory=list)
     fit: AdaptiveResult | None = None
+    fields: dict[str, _FieldRun] = field(default_factory=dict)
 
     @property
     def stopped(self) -> bool:
@@ -125,23 +126,29 @@ def stop_on_signals(stop: StopRequest, say: Callable[[str], None]) -> Iterator[N
             signal.signal(s, h)
 
 
-def _prepare_folder(folder: SweepFolder, digest: str, version: str, options: BatchOptions,
-                    frequencies: list[float]) -> dict[float, FrequencySolution]:
-    """Check or start the sweep folder; the solutions a resume keeps."""
-    if folder.exists and options.resume:
-        try:
-            folder.check(digest, version)
-        except SweepMismatchError as exc:
-            raise BatchError(str(exc)) from None
-        return folder.load()
-    if folder.folder.exists() and not options.force:
-        kept = len(folder.frequencies()) if folder.exists else 0
-        raise BatchError(
-            f"{folder.folder}: an interrupted run left {kept} solved frequencies here; "
-            "pass --resume to finish it, or --force to start over"
-        )
-    folder.start(digest, version, frequencies)
-    return {}
+def _prepare_folders(root: SweepFolder, folders: dict[str, SweepFolder], digest: str, version: str,
+                     options: BatchOptions, frequencies: list[float]) -> dict[str, dict[float, FrequencySolution]]:
+    """Check or start the sweep folder of each field; the solutions a resume keeps."""
+    if root.folder.exists() and not options.resume:
+        if not options.force:
+            kept = sum(len(f.frequencies()) for f in folders.values() if f.exists)
+            raise BatchError(
+                f"{root.folder}: an interrupted run left {kept} solved frequencies here; "
+                "pass --resume to finish it, or --force to start over"
+            )
+        root.remove()
+    done: dict[str, dict[float, FrequencySolution]] = {}
+    for name, folder in folders.items():
+        if options.resume and folder.exists:
+            try:
+                folder.check(digest, version)
+            except SweepMismatchError as exc:
+                raise BatchError(str(exc)) from None
+            done[name] = folder.load()
+        else:
+            folder.start(digest, version, frequencies, field=name)
+            done[name] = {}
+    return done
 
 
 @contextlib.contextmanager
@@ -188,14 +195,55 @@ def run_case(
         ``result`` is None when a stop request ended the run early.
     """
     from . import __version__
-    from .run import assemble_result
 
     start = time.perf_counter()
+    fields = case.fields or (case.problem.field,)
+    root = SweepFolder(sweep_folder_for(out))
+    folders: dict[str, SweepFolder] = {f: SweepFolder(root.folder / f) if len(fields) > 1 else root for f in fields}
+    done = _prepare_folders(root, folders, digest, __version__, options,
+                            [float(f) for f in case.problem.frequencies_hz])
+    stop = StopRequest()
+    runs: dict[str, _FieldRun] = {}
+    with stop_on_signals(stop, say), _executor(options) as ex:
+        description = ex.description if ex is not None else "in-process"
+        for name in fields:
+            one = case if name == case.problem.field else replace(case, problem=replace(case.problem, field=name))
+            label = f"{name}: " if len(fields) > 1 else ""
+            runs[name] = _solve_field(one, done[name], folders[name], ex, stop, progress, label)
+            if runs[name].result is None:
+                break
+    first = runs[fields[0]]
+    outcome = BatchOutcome(None, first.sweep, Path(out), root.folder, description)
+    outcome.fields = runs
+    if any(r.result is None for r in runs.values()) or len(runs) < len(fields):
+        return outcome
+    for r in runs.values():
+        assert r.result is not None
+        r.result.elapsed_s = time.perf_counter() - start
+    outcome.result, outcome.fit = first.result, first.fit
+    _write(outcome, case, options)
+    root.remove()
+    return outcome
+
+
+@dataclass
+class _FieldRun:
+    """One field's sweep: its solutions, its fit (adaptive bands) and its assembled result."""
+
+    sweep: SweepOutcome
+    fit: AdaptiveResult | None
+    result: RunResult | None
+
+
+def _solve_field(
+    case: Case, done: dict[float, FrequencySolution], folder: SweepFolder, ex: Executor | None,
+    stop: StopRequest, progress: Callable[[str], None] | None, label: str,
+) -> _FieldRun:
+    """Sweep one field of ``case``, storing each solution in ``folder``; result None when stopped."""
+    from .run import assemble_result
+
     problem = case.problem
     frequencies = [float(f) for f in problem.frequencies_hz]
-    folder = SweepFolder(sweep_folder_for(out))
-    done = _prepare_folder(folder, digest, __version__, options, frequencies)
-    stop = StopRequest()
     count = [0]
 
     def solved(solution: FrequencySolution) -> None:
@@ -203,26 +251,19 @@ def run_case(
         count[0] += 1
         if progress is not None:
             total = "" if case.adaptive is not None else f" ({count[0]}/{len(frequencies)})"
-            progress(f"solved {solution.frequency_hz:.6g} Hz{total}")
+            progress(f"{label}solved {solution.frequency_hz:.6g} Hz{total}")
 
-    with stop_on_signals(stop, say), _executor(options) as ex:
-        description = ex.description if ex is not None else "in-process"
-        if case.adaptive is None:
-            sweep = solve_sweep(problem, frequencies, done=done, executor=ex, stop=stop, on_solved=solved)
-            fit = None
-        else:
-            sweep, fit = _adaptive(case, done, ex, stop, solved)
-    outcome = BatchOutcome(None, sweep, Path(out), folder.folder, description)
-    if fit is None and case.adaptive is not None or sweep.stopped:
-        return outcome
+    fit = None
+    if case.adaptive is None:
+        sweep = solve_sweep(problem, frequencies, done=done, executor=ex, stop=stop, on_solved=solved)
+    else:
+        sweep, fit = _adaptive(case, done, ex, stop, solved)
+    if sweep.stopped:
+        return _FieldRun(sweep, fit, None)
     if fit is not None:
         problem = replace(problem, frequencies_hz=tuple(s.frequency_hz for s in fit.solutions))
         frequencies = list(problem.frequencies_hz)
-    outcome.result = assemble_result(problem, sweep.ordered(frequencies), time.perf_counter() - start)
-    outcome.fit = fit
-    _write(outcome, case, options)
-    folder.remove()
-    return outcome
+    return _FieldRun(sweep, fit, assemble_result(problem, sweep.ordered(frequencies), sweep.elapsed_s))
 
 
 def _adaptive(
@@ -255,16 +296,64 @@ def _adaptive(
 
 
 def _write(outcome: BatchOutcome, case: Case, options: BatchOptions) -> None:
-    """The results folder from the assembled result, staged and renamed into place."""
+    """The results folder from the assembled results, staged and renamed into place.
+
+    With several fields, each field's files go to a subfolder named after
+    it, and the tables of all fields are also written side by side at the top
+    with a leading ``field`` column (see :func:`_merge_tables`).
+    """
     from .export.atomic import atomic_write_text, staged_output_dir
     from .export.results import write_run
 
-    assert outcome.result is not None
+    convention = options.convention or case.output.time_convention
+    multi = len(outcome.fields) > 1
     with staged_output_dir(outcome.out, force=options.force) as staging:
-        write_run(outcome.result, staging, case.output, convention=options.convention)
-        if outcome.fit is not None:
-            _write_fit(outcome.fit, outcome.result, staging, options.convention or case.output.time_convention)
-        _add_sweep_summary(staging / "summary.json", outcome, atomic_write_text)
+        for name, run in outcome.fields.items():
+            assert run.result is not None
+            folder = staging / name if multi else staging
+            folder.mkdir(exist_ok=True)
+            write_run(run.result, folder, case.output, convention=options.convention)
+            if run.fit is not None:
+                _write_fit(run.fit, run.result, folder, convention)
+            _add_sweep_summary(folder / "summary.json", run, outcome.executor, atomic_write_text)
+        if multi:
+            _merge_tables(staging, list(outcome.fields), atomic_write_text)
+
+
+def _merge_tables(staging: Path, fields: list[str], write_text: Callable[[Path, str], Any]) -> None:
+    """Every CSV table of the field subfolders, once more at the top with a leading ``field`` column.
+
+    Columns that only some fields have (the surface current of TM and TE)
+    are empty in the rows of the others. The top summary.json lists the
+    fields and their subfolders.
+    """
+    import csv
+    import io
+
+    names = sorted({p.name for f in fields for p in (staging / f).glob("*.csv") if not p.name.endswith("_steps.csv")})
+    for name in names:
+        comments: list[str] = []
+        header: list[str] = ["field"]
+        rows: list[dict[str, str]] = []
+        for f in fields:
+            path = staging / f / name
+            if not path.exists():
+                continue
+            lines = path.read_text(encoding="utf-8").splitlines()
+            body = [line for line in lines if not line.startswith("#")]
+            comments = comments or [line for line in lines if line.startswith("#")]
+            reader = csv.DictReader(body)
+            header += [c for c in reader.fieldnames or [] if c not in header]
+            rows += [{"field": f, **row} for row in reader]
+        buf = io.StringIO()
+        buf.write("".join(c + "\n" for c in comments))
+        writer = csv.DictWriter(buf, header, restval="", lineterminator="\n")
+        writer.writeheader()
+        writer.writerows(rows)
+        write_text(staging / name, buf.getvalue())
+    top = {"schema": "sectionwave.fields/1", "fields": fields,
+           "summaries": {f: f"{f}/summary.json" for f in fields}, "files": names}
+    write_text(staging / "summary.json", json.dumps(top, indent=2) + "\n")
 
 
 def _write_fit(fit: AdaptiveResult, result: RunResult, staging: Path, convention: Any) -> None:
@@ -278,17 +367,17 @@ def _write_fit(fit: AdaptiveResult, result: RunResult, staging: Path, convention
     )
 
 
-def _add_sweep_summary(path: Path, outcome: BatchOutcome, write_text: Callable[[Path, str], Any]) -> None:
+def _add_sweep_summary(path: Path, run: _FieldRun, executor: str, write_text: Callable[[Path, str], Any]) -> None:
     """Add the ``sweep`` entry to summary.json: what was solved now, what was kept, where."""
     summary = json.loads(path.read_text(encoding="utf-8"))
-    sweep = outcome.sweep
+    sweep = run.sweep
     summary["sweep"] = {
-        "executor": outcome.executor,
+        "executor": executor,
         "solved_now": len(sweep.solved_now),
         "kept_from_earlier_run": len(sweep.kept),
         "solved_now_hz": sorted(sweep.solved_now),
     }
-    fit = outcome.fit
+    fit = run.fit
     if fit is not None:
         summary["files"] = [*summary.get("files", []), "fitted_sweep.csv"]
         summary["sweep"]["adaptive"] = {

@@ -16,7 +16,7 @@ number, list or range
 The schema (keys may be added, never renamed)::
 
     title = "..."
-    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ...
+    [wave]        field = "tm" | "te" | "acoustic" (or ["tm", "te"]: both, same body), frequency_hz = ...
                   (or an adaptive band: { start =, stop =, adaptive_db =, fit_points = 1000 }),
                   sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
     [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
@@ -41,7 +41,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Literal, cast
 
@@ -68,11 +68,13 @@ from .problem import (
     SOUND_SPEED_AIR_M_S,
     SPEED_OF_LIGHT_M_S,
     BoundaryKind,
+    FieldKind,
     IncidentWave,
     Material,
     Medium,
     NearFieldRequest,
     Problem,
+    ProblemError,
     Scatterer,
     SolverOptions,
 )
@@ -90,12 +92,15 @@ class Case:
 
     ``adaptive`` is the band of ``frequency_hz = { start, stop, adaptive_db }``
     (None for listed frequencies); the problem's frequencies are then the
-    band's first, equally spaced ones.
+    band's first, equally spaced ones. ``fields`` lists the fields of
+    ``field = ["tm", "te"]`` (empty for one field); the problem is set up for
+    the first, and the others are the same problem with another field.
     """
 
     problem: Problem
     output: OutputOptions
     adaptive: AdaptiveBand | None = None
+    fields: tuple[FieldKind, ...] = ()
 
 
 MATERIAL_KEYS = (
@@ -323,6 +328,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     if not top.has("wave"):
         raise top.fail("wave", "is required: [wave] with field and frequency_hz")
     wave_table, adaptive = _adaptive_band(_Reader(source, top.get("wave") or {}, "wave"))
+    wave_table, fields = _field_list(_Reader(source, wave_table, "wave"))
     field_kind, freqs, medium = _wave(_Reader(source, wave_table, "wave"))
 
     geometry = top.get("geometry")
@@ -363,7 +369,22 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         near_field=near,
         solver=solver,
     )
-    return Case(problem, output, adaptive)
+    for other in fields[1:]:
+        try:
+            replace(problem, field=other)
+        except ProblemError as exc:
+            raise CaseError(f"{source}: [wave] field = {list(fields)}: {exc}") from None
+    return Case(problem, output, adaptive, fields)
+
+
+def _field_list(wave: _Reader) -> tuple[Mapping[str, Any], tuple[FieldKind, ...]]:
+    """``field = ["tm", "te"]``: the fields, and the table with the first one."""
+    value = wave.table.get("field")
+    if not isinstance(value, list):
+        return wave.table, ()
+    if not value or len(set(map(str, value))) != len(value) or not set(value) <= {"tm", "te"}:
+        raise wave.fail("field", f"a list of fields holds \"tm\" and \"te\", each once, got {value!r}")
+    return {**wave.table, "field": value[0]}, tuple(cast(FieldKind, v) for v in value)
 
 
 def _adaptive_band(wave: _Reader) -> tuple[Mapping[str, Any], AdaptiveBand | None]:

@@ -101,7 +101,9 @@ def _run(args: argparse.Namespace) -> int:
     for text in dict.fromkeys([str(w.message) for w in caught] + outcome.notes):
         _say(args.quiet, f"warning: {text}")
     if outcome.result is None:
-        kept = f"{len(outcome.sweep.solutions)}" + ("" if case.adaptive else f" of {len(case.problem.frequencies_hz)}")
+        runs = [run.sweep for run in outcome.fields.values()] or [outcome.sweep]
+        total = len(case.problem.frequencies_hz) * max(1, len(case.fields))
+        kept = f"{sum(len(r.solutions) for r in runs)}" + ("" if case.adaptive else f" of {total}")
         _say(args.quiet, f"stopped: {kept} frequencies solved and kept in {outcome.sweep_folder}; finish with --resume")
         return EXIT_INTERRUPTED
     result = outcome.result
@@ -129,9 +131,10 @@ def _streamed_run(args: argparse.Namespace, case: Any, out: Path, progress: Any)
         outcome = run_case(case, digest, out, options, say=lambda m: _say(args.quiet, m), progress=progress)
     except BatchError as exc:
         raise _BadInput(str(exc)) from None
-    if options.distributed or outcome.sweep.kept:
+    runs = [run.sweep for run in outcome.fields.values()] or [outcome.sweep]
+    if options.distributed or any(sweep.kept for sweep in runs):
         # warnings raised in other processes or earlier runs travel with the solutions
-        outcome.notes = [w for fr in outcome.sweep.solutions.values() for w in fr.warnings]
+        outcome.notes = [w for sweep in runs for fr in sweep.solutions.values() for w in fr.warnings]
     return outcome
 
 

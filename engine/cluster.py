@@ -107,15 +107,27 @@ class DaskExecutor:
             )
             for n, f in enumerate(frequencies_hz)
         ]
+        stopping = False
         try:
             for future in as_completed(futures, loop=self.client.loop):
-                solution = future.result()
-                yield solution
-                if stop.requested:
-                    return
+                if future.status != "finished" and stopping:
+                    continue  # cancelled by the stop below
+                yield future.result()
+                if stop.requested and not stopping:
+                    # finish the frequencies under way on the workers, drop the queued ones
+                    stopping = True
+                    self.client.cancel([f for f in futures if f.key not in self._running()])
         finally:
             self.client.cancel(futures)
             self.client.cancel([shared])
+
+
+    def _running(self) -> set[str]:
+        """Keys of the tasks the workers are running now."""
+        try:
+            return {str(k) for keys in self.client.processing().values() for k in keys}
+        except Exception:  # noqa: BLE001 - a scheduler that cannot say: stop everything
+            return set()
 
 
 def _local_cluster(workers: int) -> Any:
@@ -125,7 +137,7 @@ def _local_cluster(workers: int) -> Any:
 
     # workers inherit the variables set when they start: set them for the nanny's spawn
     with dask.config.set({"distributed.scheduler.allowed-failures": ALLOWED_FAILURES,
-                          "distributed.nanny.pre-spawn-environ": dict(THREAD_VARIABLES)}):
+                          "distributed.nanny.pre-spawn-environ": {**THREAD_VARIABLES, **WORKER_QUIET}}):
         return LocalCluster(
             n_workers=workers,
             threads_per_worker=1,

@@ -57,7 +57,10 @@ class Executor(Protocol):
     def solve(
         self, problem: Problem, frequencies_hz: Sequence[float], stop: StopRequest
     ) -> Iterator[FrequencySolution]:
-        """Yield the solutions of ``frequencies_hz`` in any order; stop early when ``stop`` is set."""
+        """Yield the solutions of ``frequencies_hz`` in any order.
+
+        Once ``stop`` is set, yield only the frequencies already under way, then return.
+        """
         ...
 
 
@@ -153,8 +156,6 @@ def solve_sweep(
             outcome.solved_now.append(solution.frequency_hz)
             if on_solved is not None:
                 on_solved(solution)
-            if flag.requested:
-                break
     outcome.stopped = not outcome.complete(wanted)
     outcome.elapsed_s = time.perf_counter() - start
     return outcome

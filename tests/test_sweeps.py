@@ -176,3 +176,45 @@ def test_a_stopped_adaptive_band_resumes_to_identical_files(tmp_path):
     assert summary["sweep"]["kept_from_earlier_run"] >= 12
     assert summary["sweep"]["solved_now"] + summary["sweep"]["kept_from_earlier_run"] == \
         summary["sweep"]["adaptive"]["solves"]
+
+
+def test_tm_and_te_in_one_run_labelled_and_resumed(tmp_path):
+    # Reference: the PEC circle's series, TM (u = 0, "dirichlet") and TE (du/dn = 0, "neumann")
+    # (tests/reference.py, circle_far_field; Balanis, Advanced Engineering Electromagnetics, ch. 11).
+    import numpy as np
+    from sectionwave.engine.export import read_csv
+    from sectionwave.engine.problem import SPEED_OF_LIGHT_M_S
+
+    from tests.reference import circle_far_field, relative_error
+
+    case = _case(tmp_path, CASE.replace('field = "tm"', 'field = ["tm", "te"]').replace("count = 10", "count = 4"))
+    ref = tmp_path / "ref"
+    assert main(["run", str(case), "--out", str(ref), "--quiet"]) == 0
+    table = read_csv(ref / "farfield.csv")
+    assert list(table)[0] == "field"
+    for field, kind in (("tm", "dirichlet"), ("te", "neumann")):
+        rows = (table["field"] == field) & (table["frequency_hz"] == 1e9) & (table["from_deg"] == 0.0)
+        k = 2 * np.pi * 1e9 / SPEED_OF_LIGHT_M_S
+        series = circle_far_field(0.1 * k, k, table["angle_deg"][rows], 0.0, kind)
+        assert relative_error(table["farfield_re"][rows] + 1j * table["farfield_im"][rows], series) < 1e-7
+        own = (ref / field / "farfield.csv").read_text().splitlines()
+        top = [line.split(",", 1)[1] for line in (ref / "farfield.csv").read_text().splitlines()[2:]
+               if line.startswith(field + ",")]
+        assert top == own[2:]  # the same rows, labelled
+    surface = (ref / "surface.csv").read_text().splitlines()[1].split(",")
+    assert "current_z_re_a_per_m" in surface and "current_t_re_a_per_m" in surface
+    summary = json.loads((ref / "summary.json").read_text())
+    assert summary["fields"] == ["tm", "te"]
+    assert json.loads((ref / "te" / "summary.json").read_text())["inputs"]["field"] == "te"
+    # killed while solving TE, resumed: the same files
+    out = tmp_path / "out"
+    proc = _start(case, out)
+    end = time.monotonic() + 120
+    while len(list(sweep_folder_for(out).glob("*/*Hz.pickle"))) < 5:
+        assert proc.poll() is None and time.monotonic() < end
+        time.sleep(0.02)
+    proc.kill()
+    proc.wait(timeout=30)
+    assert main(["run", str(case), "--out", str(out), "--resume", "--quiet"]) == 0
+    for name in ("farfield.csv", "monostatic.csv", "surface.csv", "tm/farfield.csv", "te/surface.csv"):
+        assert (ref / name).read_bytes() == (out / name).read_bytes(), name
