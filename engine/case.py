@@ -103,6 +103,9 @@ class Case:
     fields: tuple[FieldKind, ...] = ()
 
 
+#: Largest fitted_sweep.csv an adaptive band may ask for (rows).
+MAX_FITTED_ROWS = 2_000_000
+
 MATERIAL_KEYS = (
     "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
     "sound_speed_m_s", "density_kg_m3", "attenuation_db_per_wavelength",
@@ -369,6 +372,14 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         near_field=near,
         solver=solver,
     )
+    if adaptive is not None:
+        rows = adaptive.fit_points * np.size(angles) * len(incidents)
+        if rows > MAX_FITTED_ROWS:
+            raise CaseError(
+                f"{source}: [wave] frequency_hz: fitted_sweep.csv would hold {rows} rows (fit_points x far-field "
+                f"angles x incident waves); at most {MAX_FITTED_ROWS}: give fewer [far_field] angles_deg, "
+                "incident waves or fit_points"
+            )
     for other in fields[1:]:
         try:
             replace(problem, field=other)

@@ -135,3 +135,6 @@ def test_case_reads_the_band_and_refuses_a_bad_one(tmp_path):
         path.write_text(CASE.replace("adaptive_db = 0.1, fit_points = 300", bad))
         with pytest.raises(CaseError, match=words):
             load_case(path)
+    path.write_text(CASE.replace(f"angles_deg = {ANGLES}", "angles_deg = { start = 0, stop = 360, count = 7201 }"))
+    with pytest.raises(CaseError, match="fewer"):
+        load_case(path)
