@@ -137,6 +137,11 @@ def _prepare_folders(root: SweepFolder, folders: dict[str, SweepFolder], digest:
                 "pass --resume to finish it, or --force to start over"
             )
         root.remove()
+    if options.resume and root.folder.exists() and not any(f.exists for f in folders.values()):
+        raise BatchError(
+            f"{root.folder}: not the sweep folder of this case (its fields changed?); "
+            "run without --resume (with --force) to start over"
+        )
     done: dict[str, dict[float, FrequencySolution]] = {}
     for name, folder in folders.items():
         if options.resume and folder.exists:
