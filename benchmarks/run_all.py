@@ -13,6 +13,7 @@ RUNS = [
     ["bench_import.py"],
     ["bench_penetrable.py", "--items", "1,2", "--max-ka", "50"],
     ["bench_startup.py"],
+    ["bench_sweep.py", "--quick", "--items", "1,2"],
 ]
 
 if __name__ == "__main__":

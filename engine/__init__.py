@@ -34,7 +34,7 @@ from .problem import (  # noqa: E402
     SolverOptions,
 )
 from .results import FrequencySolution, RunResult  # noqa: E402
-from .run import solve_problem  # noqa: E402
+from .run import solve_frequency, solve_problem  # noqa: E402
 from .solve import IllConditionedWarning, ProblemTooLargeError  # noqa: E402
 
 
@@ -79,6 +79,7 @@ __all__ = [
     "__version__",
     "load_case",
     "parse_case",
+    "solve_frequency",
     "solve_problem",
     "write_run",
 ]

@@ -22,7 +22,9 @@ unknown key
 The schema (keys may be added, never renamed)::
 
     title = "..."
-    [wave]        field = "tm" | "te" | "acoustic", frequency_hz = ... (or frequency = "9.4 GHz"),
+    [wave]        field = "tm" | "te" | "acoustic" (or ["tm", "te"]: both, same body), frequency_hz = ...
+                  (or frequency = "9.4 GHz", or an adaptive band: { start =, stop =, adaptive_db =,
+                  fit_points = 1000 }),
                   sound_speed_m_s = 343.0, density_kg_m3 = 1.204 (acoustic)
     [geometry]    file = "part.dxf", units = "mm", gap_tol_m = ...
     [materials.NAME]  eps_r, mu_r (number or [re, im]), loss_tangent, conductivity_s_m;
@@ -69,6 +71,7 @@ from sectionwave.importers.curves import (
 )
 from sectionwave.importers.errors import SectionwaveError
 
+from .adaptive_frequency import AdaptiveBand
 from .conventions import TIME_CONVENTIONS, TimeConvention
 from .export.options import OutputOptions
 from .problem import (
@@ -78,11 +81,13 @@ from .problem import (
     SOUND_SPEED_AIR_M_S,
     SPEED_OF_LIGHT_M_S,
     BoundaryKind,
+    FieldKind,
     IncidentWave,
     Material,
     Medium,
     NearFieldRequest,
     Problem,
+    ProblemError,
     Scatterer,
     SolverOptions,
 )
@@ -96,11 +101,23 @@ class CaseError(SectionwaveError, ValueError):
 
 @dataclass(frozen=True)
 class Case:
-    """A validated case: the physics problem for the engine and what to write."""
+    """A validated case: the physics problem for the engine and what to write.
+
+    ``adaptive`` is the band of ``frequency_hz = { start, stop, adaptive_db }``
+    (None for listed frequencies); the problem's frequencies are then the
+    band's first, equally spaced ones. ``fields`` lists the fields of
+    ``field = ["tm", "te"]`` (empty for one field); the problem is set up for
+    the first, and the others are the same problem with another field.
+    """
 
     problem: Problem
     output: OutputOptions
+    adaptive: AdaptiveBand | None = None
+    fields: tuple[FieldKind, ...] = ()
 
+
+#: Largest fitted_sweep.csv an adaptive band may ask for (rows).
+MAX_FITTED_ROWS = 2_000_000
 
 MATERIAL_KEYS = (
     "eps_r", "mu_r", "loss_tangent", "conductivity_s_m",
@@ -423,7 +440,9 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
             raise top.fail(name, "must be a table")
     if not top.has("wave"):
         raise top.fail("wave", "is required: [wave] with field and frequency_hz")
-    field_kind, freqs, medium = _wave(_Reader(source, top.get("wave") or {}, "wave"))
+    wave_table, adaptive = _adaptive_band(_Reader(source, top.get("wave") or {}, "wave"))
+    wave_table, fields = _field_list(_Reader(source, wave_table, "wave"))
+    field_kind, freqs, medium = _wave(_Reader(source, wave_table, "wave"))
 
     geometry = top.get("geometry")
     drawing = None
@@ -474,7 +493,50 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         near_field=near,
         solver=solver,
     )
-    return Case(problem, output)
+    if adaptive is not None:
+        rows = adaptive.fit_points * np.size(angles) * len(incidents)
+        if rows > MAX_FITTED_ROWS:
+            raise CaseError(
+                f"{source}: [wave] frequency_hz: fitted_sweep.csv would hold {rows} rows (fit_points x far-field "
+                f"angles x incident waves); at most {MAX_FITTED_ROWS}: give fewer [far_field] angles_deg, "
+                "incident waves or fit_points"
+            )
+    for other in fields[1:]:
+        try:
+            replace(problem, field=other)
+        except ProblemError as exc:
+            raise CaseError(f"{source}: [wave] field = {list(fields)}: {exc}") from None
+    return Case(problem, output, adaptive, fields)
+
+
+def _field_list(wave: _Reader) -> tuple[Mapping[str, Any], tuple[FieldKind, ...]]:
+    """``field = ["tm", "te"]``: the fields, and the table with the first one."""
+    value = wave.table.get("field")
+    if not isinstance(value, list):
+        return wave.table, ()
+    if not value or len(set(map(str, value))) != len(value) or not set(value) <= {"tm", "te"}:
+        raise wave.fail("field", f"a list of fields holds \"tm\" and \"te\", each once, got {value!r}")
+    return {**wave.table, "field": value[0]}, tuple(cast(FieldKind, v) for v in value)
+
+
+def _adaptive_band(wave: _Reader) -> tuple[Mapping[str, Any], AdaptiveBand | None]:
+    """``frequency_hz = { start, stop, adaptive_db, fit_points }``: the band, and the table with its first frequencies."""
+    value = wave.table.get("frequency_hz")
+    if not isinstance(value, Mapping) or "adaptive_db" not in value:
+        return wave.table, None
+    allowed = {"start", "stop", "adaptive_db", "fit_points"}
+    if not {"start", "stop"} <= set(value) <= allowed:
+        raise wave.fail("frequency_hz", f"an adaptive band takes start, stop, adaptive_db and fit_points, got {sorted(value)}")
+    for key in ("start", "stop", "adaptive_db"):
+        if not _is_finite_number(value[key]) or value[key] <= 0:
+            raise wave.fail("frequency_hz", f"{key} must be a positive number, got {value[key]!r}")
+    points = value.get("fit_points", 1000)
+    if isinstance(points, bool) or not isinstance(points, int) or points < 2:
+        raise wave.fail("frequency_hz", f"fit_points must be an integer of at least 2, got {points!r}")
+    if not value["start"] < value["stop"]:
+        raise wave.fail("frequency_hz", f"start must be below stop, got {value['start']} and {value['stop']}")
+    band = AdaptiveBand(float(value["start"]), float(value["stop"]), float(value["adaptive_db"]), points)
+    return {**wave.table, "frequency_hz": list(band.initial_hz())}, band
 
 
 def refuse_absurd(case: Case) -> None:

@@ -61,6 +61,7 @@ def _parser() -> argparse.ArgumentParser:
         "--time-convention", choices=TIME_CONVENTIONS, default=None,
         help="engineering: exp(+j w t) (default); physics: exp(-i w t), complex conjugates",
     )
+    _sweep_arguments(run)
     ins = sub.add_parser("inspect", help="show what a drawing holds and how it cleans into bodies")
     ins.add_argument("drawing")
     ins.add_argument("--units", help="drawing units when the file has none (mm, cm, m, in, ft); "
@@ -73,6 +74,16 @@ def _parser() -> argparse.ArgumentParser:
     new.add_argument("case", type=Path, help="case file to create (TOML)")
     new.add_argument("--force", action="store_true", help="replace an existing file")
     return parser
+
+
+def _sweep_arguments(run: argparse.ArgumentParser) -> None:
+    run.add_argument("--resume", action="store_true",
+                     help="finish an interrupted run of the same case: keep solved frequencies, solve the rest")
+    where = run.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, metavar="N",
+                       help="solve frequencies on a local dask cluster of N worker processes (127.0.0.1 only)")
+    where.add_argument("--scheduler", metavar="ADDRESS", help="solve on an existing dask cluster (tcp://host:port)")
+    where.add_argument("--scheduler-file", metavar="PATH", help="solve on the dask cluster of this scheduler file")
 
 
 def _say(quiet: bool, message: str) -> None:
@@ -172,7 +183,7 @@ def _check_out(out: Path, force: bool) -> None:
 def _run(args: argparse.Namespace) -> int:
     from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
 
-    from . import load_case, solve_problem, write_run
+    from . import load_case
     from .guardrails import check_problem, check_result, from_warnings
     from .solve import ProblemTooLargeError
 
@@ -191,8 +202,14 @@ def _run(args: argparse.Namespace) -> int:
         progress = _Progress(args.quiet)
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
+
+            def output_for(result: Any) -> Any:
+                # the guardrails' findings go into summary.json of each field's results
+                findings.extend(f for f in from_warnings(caught) + check_result(result) if f not in findings)
+                return replace(case.output, warnings=tuple(f.to_dict() for f in findings))
+
             try:
-                result = solve_problem(case.problem, progress=progress)
+                outcome = _streamed_run(args, case, out, progress, output_for)
             except ProblemTooLargeError as exc:
                 raise _BadInput(
                     f"{case.output.case}: {exc} (case keys: [wave] frequency_hz, [solver] tolerance)"
@@ -201,12 +218,20 @@ def _run(args: argparse.Namespace) -> int:
                 raise _BadInput(f"{case.output.case}: {exc}") from None
             finally:
                 progress.close()
-        findings += [f for f in from_warnings(caught) + check_result(result) if f not in findings]
-        output = replace(case.output, warnings=tuple(f.to_dict() for f in findings))
-        write_run(result, out, output, force=args.force, convention=args.time_convention)
-    for w in caught:
-        if not issubclass(w.category, SectionwaveWarning):
-            _say(args.quiet, f"warning: {w.message}")
+    said = {f.message for f in findings}
+    for text in dict.fromkeys([str(w.message) for w in caught if not issubclass(w.category, SectionwaveWarning)]
+                              + outcome.notes):
+        if text not in said:
+            _say(args.quiet, f"warning: {text}")
+    if outcome.result is None:
+        runs = [run.sweep for run in outcome.fields.values()] or [outcome.sweep]
+        total = len(case.problem.frequencies_hz) * max(1, len(case.fields))
+        kept = f"{sum(len(r.solutions) for r in runs)}" + ("" if case.adaptive else f" of {total}")
+        _say(args.quiet, f"stopped: {kept} frequencies solved and kept in {outcome.sweep_folder}; finish with --resume")
+        return EXIT_INTERRUPTED
+    result = outcome.result
+    if outcome.sweep.kept:
+        _say(args.quiet, f"resumed: kept {len(outcome.sweep.kept)} frequencies, solved {len(outcome.sweep.solved_now)}")
     for f in findings:
         # never hidden, not even by --quiet: these say the numbers may be wrong
         print(f"sectionwave: warning [{f.code}]: {f.message}", file=sys.stderr)
@@ -233,6 +258,31 @@ def _inspect_case_file(path: Path) -> str:
             drawing = path.parent / geometry["file"]
             hint = f", or inspect its drawing: sectionwave inspect {drawing}"
     return f"{path}: is a case file, not a drawing; run it with: sectionwave run {path}{hint}"
+
+
+def _streamed_run(args: argparse.Namespace, case: Any, out: Path, progress: Any, output_for: Any) -> Any:
+    """Solve frequency by frequency into the sweep folder, then write ``out`` (see ``batch``)."""
+    from .batch import BatchError, BatchOptions, case_digest, run_case
+
+    if args.workers is not None and args.workers < 1:
+        raise _BadInput(f"--workers must be at least 1, got {args.workers}")
+    if args.resume and args.case == "-":
+        raise _BadInput("--resume needs a case file, not standard input")
+    digest = case_digest(args.case) if args.case != "-" else "stdin"
+    options = BatchOptions(
+        resume=args.resume, force=args.force, convention=args.time_convention, workers=args.workers,
+        scheduler=args.scheduler, scheduler_file=args.scheduler_file,
+    )
+    try:
+        outcome = run_case(case, digest, out, options, say=lambda m: _say(args.quiet, m), progress=progress,
+                           output_for=output_for)
+    except BatchError as exc:
+        raise _BadInput(str(exc)) from None
+    runs = [run.sweep for run in outcome.fields.values()] or [outcome.sweep]
+    if options.distributed or any(sweep.kept for sweep in runs):
+        # warnings raised in other processes or earlier runs travel with the solutions
+        outcome.notes = [w for sweep in runs for fr in sweep.solutions.values() for w in fr.warnings]
+    return outcome
 
 
 def _inspect(args: argparse.Namespace) -> int:

@@ -41,7 +41,7 @@ from .solve import (
 )
 from .system import BoundarySystem, DiscreteSystem, Region
 
-__all__ = ["METHOD", "SURFACE_LEVELS", "panel_wavelengths", "solve_problem"]
+__all__ = ["METHOD", "SURFACE_LEVELS", "assemble_result", "panel_wavelengths", "solve_frequency", "solve_problem"]
 
 #: Refined levels on which the surface files show the density next to a compressed
 #: corner (the innermost panel is 2^-8 of the coarse one).
@@ -100,9 +100,28 @@ def solve_problem(
             left = f" (about {spent / n * (total - n):.0f} s left)" if n else ""
             progress(f"frequency {n + 1}/{total}: {freq:.6g} Hz{left}")
         results.append(_solve_frequency(_Scene(problem, layout, freq), active, progress))
+    return assemble_result(problem, results, time.perf_counter() - start)
+
+
+def solve_frequency(
+    problem: Problem, frequency_hz: float, *, solver: LinearSolver | None = None,
+    progress: Callable[[str], None] | None = None,
+) -> FrequencySolution:
+    """Solve ``problem`` at one frequency (any frequency, listed in the problem or not).
+
+    Frequencies are independent of each other: a sweep may solve them in any
+    order, in other processes or on other machines, and assemble them with
+    :func:`assemble_result`.
+    """
+    active: LinearSolver = solver if solver is not None else DenseLU()
+    return _solve_frequency(_Scene(problem, scene_layout(problem), float(frequency_hz)), active, progress)
+
+
+def assemble_result(problem: Problem, frequencies: list[FrequencySolution], elapsed_s: float) -> RunResult:
+    """A ``RunResult`` from solutions of ``problem`` (in the order given) and the time taken."""
     s = problem.solver
     settings = RunSettings(s.tolerance, s.nodes_per_panel, panel_wavelengths(problem), s.max_refinements, METHOD)
-    return RunResult(problem, results, settings, time.perf_counter() - start)
+    return RunResult(problem, list(frequencies), settings, elapsed_s)
 
 
 class _Scene:

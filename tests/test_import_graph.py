@@ -16,7 +16,7 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 PACKAGES = {"sectionwave.importers": ROOT / "importers", "sectionwave.engine": ROOT / "engine"}
-FACE = {"sectionwave.engine.case", "sectionwave.engine.cli"}
+FACE = {"sectionwave.engine.case", "sectionwave.engine.cli", "sectionwave.engine.batch"}
 ORCHESTRATOR = {"sectionwave.engine.run", "sectionwave.engine.adapt"}
 
 
