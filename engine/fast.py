@@ -21,6 +21,17 @@ near system
     The system matrix restricted to the near pattern (plus the identity
     terms); its sparse LU is the preconditioner (right preconditioning, so
     GMRES residuals are true residuals).
+radiation-condition rows
+    On a closed sound-soft / TM PEC contour without compressed corners the
+    fast solver combines the two boundary equations with an operator
+    instead of the constant ``beta``: ``E2 + B E1`` with ``B`` the
+    on-surface radiation condition ``+j k sqrt(1 + d2/ds2 / k_eps^2)``
+    (Antoine & Darbas, M2AN 41 (2007); ``k_eps = k - j 0.4 k^(1/3)
+    kappa^(2/3)``), applied by FFT on the contour's arc length. Any ``B``
+    gives an exact equation (its right-hand side uses the same ``B``); this
+    one makes ``B S`` close to the Dirichlet-to-Neumann map, so the system is
+    close to the identity and GMRES needs a few iterations at any frequency
+    (the constant ``beta`` needs about ``0.7 k D``, ``D`` the diameter).
 recycling
     Every GMRES cycle leaves its Krylov directions behind: ``U`` with
     ``A U = C``, ``C`` orthonormal. A new right-hand side starts from its
@@ -36,9 +47,10 @@ its results are conjugated back.
 
 from __future__ import annotations
 
+import math
 import time
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -50,6 +62,7 @@ from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
 from .compression import CompressedSystem
 from .kernels import kernel_matrices
 from .mesh import PanelMesh
+from .nearfield import serial_numba
 from .operators import near_corrections, near_pairs, self_panel_blocks
 from .quadrature import gauss_legendre, interpolation_matrix, near_weights
 from .system import BoundarySystem, DiscreteSystem, Region
@@ -179,6 +192,12 @@ def near_pattern_size(mesh: PanelMesh) -> int:
 
 
 def near_blocks(mesh: PanelMesh, k: complex, want: dict[str, bool]) -> NearBlocks:
+    """Entries of the requested operators on the near pattern (see ``_near_blocks``); compiled calls on one thread."""
+    with serial_numba():
+        return _near_blocks(mesh, k, want)
+
+
+def _near_blocks(mesh: PanelMesh, k: complex, want: dict[str, bool]) -> NearBlocks:
     """Entries of the requested operators (``s``, ``d``, ``dp``, ``t``) on the near pattern.
 
     Exact entries are those of ``operators.assemble_operators``: the self
@@ -294,12 +313,87 @@ class NotConvergedWarning(SectionwaveWarning):
     """GMRES stopped before reaching its residual target; the result is less accurate than asked."""
 
 
+class RadiationRows:
+    """``B = +j k sqrt(1 + d2/ds2 / k_eps^2)`` on one closed contour, by FFT on a uniform arc-length grid.
+
+    Node values go to the grid by each panel's Lagrange interpolant (the
+    panel parameter taken proportional to arc length), the multiplier acts
+    on modes up to a third of the grid (higher ones are dropped), and the
+    grid goes back to the nodes by 8-point Lagrange interpolation. Only the
+    conditioning depends on how well this approximates the ideal operator:
+    the equation stays exact because the right-hand side uses the same ``B``.
+    """
+
+    POINTS_PER_NODE = 1.0
+    BACK_ORDER = 8
+
+    def __init__(self, mesh: PanelMesh, panels: IntArray, k: complex) -> None:
+        from scipy.fft import next_fast_len
+
+        p = mesh.p
+        lengths = mesh.lengths[panels]
+        starts = np.concatenate([[0.0], np.cumsum(lengths)])
+        total = float(starts[-1])
+        x, _ = gauss_legendre(p)
+        node_s = (starts[:-1, None] + 0.5 * (x[None, :] + 1.0) * lengths[:, None]).ravel()
+        n_nodes = node_s.size
+        m = next_fast_len(max(int(self.POINTS_PER_NODE * n_nodes), 64))
+        h = total / m
+        grid_s = np.arange(m) * h
+        pan = np.clip(np.searchsorted(starts, grid_s, side="right") - 1, 0, panels.size - 1)
+        t = np.clip(2.0 * (grid_s - starts[pan]) / lengths[pan] - 1.0, -1.0, 1.0)
+        interp = np.stack([interpolation_matrix(x, np.array([ti]))[0] for ti in t])
+        cols = pan[:, None] * p + np.arange(p)[None, :]
+        self.forward = sp.csr_matrix((interp.ravel(), (np.repeat(np.arange(m), p), cols.ravel())),
+                                     shape=(m, n_nodes))
+        order = self.BACK_ORDER
+        pos = node_s / h
+        j0 = np.floor(pos).astype(np.int64) - order // 2 + 1
+        off = pos - j0
+        wts = np.ones((n_nodes, order))
+        for a in range(order):
+            for b in range(order):
+                if a != b:
+                    wts[:, a] *= (off - b) / (a - b)
+        back_cols = (j0[:, None] + np.arange(order)[None, :]) % m
+        self.back = sp.csr_matrix((wts.ravel(), (np.repeat(np.arange(n_nodes), order), back_cols.ravel())),
+                                  shape=(n_nodes, m))
+        kappa = float(np.mean(np.abs(mesh.curvature.reshape(mesh.n_panels, p)[panels])))
+        kappa = max(kappa, 2 * math.pi / total)
+        kr = abs(k)
+        k_eps = kr - 0.4j * kr ** (1 / 3) * kappa ** (2 / 3)
+        xi = 2 * math.pi * np.fft.fftfreq(m, d=h)
+        sigma = 1j * kr * np.sqrt(1.0 - (xi / k_eps) ** 2 + 0j)
+        sigma[np.abs(np.fft.fftfreq(m)) > 1.0 / 6.0] = 0.0
+        self.sigma = sigma
+
+    def apply(self, values: ComplexArray) -> ComplexArray:
+        """``B`` on node values (one column or several)."""
+        grid = self.forward @ values
+        spec = np.fft.fft(grid, axis=0)
+        spec *= self.sigma if spec.ndim == 1 else self.sigma[:, None]
+        return self.back @ np.fft.ifft(spec, axis=0)
+
+
 class _RegionOperator:
     """One region's part of the system matrix, applied matrix-free (FMM plus near corrections)."""
 
-    def __init__(self, system: BoundarySystem, region: Region, precision: int) -> None:
+    def __init__(self, system: BoundarySystem, region: Region, precision: int,
+                 radiation_nodes: list[IntArray] | None = None) -> None:
         self.k = complex(region.wavenumber)
         self.slots = system.region_slots(region)
+        self.pre_e1 = [s.e1 for s in self.slots]
+        if radiation_nodes:
+            # simple systems only: one slot, local index = node; B replaces beta on these rows
+            # (its zero mode, +j k, stands in for it in the preconditioner)
+            (slot,) = self.slots
+            e1 = slot.e1.copy()
+            pre = slot.e1.copy()
+            for nodes in radiation_nodes:
+                e1[nodes] = 0.0
+                pre[nodes] = 1j
+            self.slots = [replace(slot, e1=e1)]
+            self.pre_e1 = [pre]
         mesh = system.mesh.subset([c for c, _ in region.contours])
         self.mesh = mesh
         self.points = np.asfortranarray(mesh.nodes.T)
@@ -308,7 +402,7 @@ class _RegionOperator:
         self.precision = precision
         has_u = any(bool(np.any(s.u != 0)) for s in self.slots)
         has_dn = any(bool(np.any(s.dudn != 0)) for s in self.slots)
-        rows_1 = any(bool(np.any(s.e1 != 0)) for s in self.slots)
+        rows_1 = any(bool(np.any(e != 0)) for e in self.pre_e1)
         rows_2 = any(bool(np.any(s.e2 != 0)) for s in self.slots)
         self.want = {"s": has_dn and rows_1, "d": has_u and rows_1, "dp": has_dn and rows_2, "t": has_u and rows_2}
         self.charge, self.dipole, self.gradient = has_dn, has_u, rows_2
@@ -330,8 +424,8 @@ class _RegionOperator:
             id_dn[s.local] += s.dudn * xs
         return sigma, mu, id_u, id_dn
 
-    def apply(self, x: ComplexArray, out: ComplexArray) -> None:
-        """Add this region's rows of ``A x`` to ``out``."""
+    def apply(self, x: ComplexArray, out: ComplexArray) -> ComplexArray:
+        """Add the region's rows of ``A x`` to ``out``; return ``E1`` (with its jump term) at its nodes."""
         sigma, mu, id_u, id_dn = self._densities(x)
         w = self.weights
         pot, grad = fmm_sums(
@@ -350,21 +444,23 @@ class _RegionOperator:
             e2 = e2 + c["dp"] @ sigma
         if "t" in c:
             e2 = e2 - c["t"] @ mu
+        e1 = e1 + 0.5 * id_u
         for s in self.slots:
             loc = s.local
-            out[s.unknowns] += s.e1 * (e1[loc] + 0.5 * id_u[loc]) + s.e2 * (e2[loc] + 0.5 * id_dn[loc])
+            out[s.unknowns] += s.e1 * e1[loc] + s.e2 * (e2[loc] + 0.5 * id_dn[loc])
+        return e1
 
     def near_system(self, n: int) -> sp.csr_matrix:
         """The region's rows of the system matrix on the near pattern (with the identity terms)."""
         exact = self._near_exact or {}
         m = self.weights.size
         parts = []
-        for r in self.slots:
+        for r, r_e1 in zip(self.slots, self.pre_e1):
             for a in self.slots:
                 block = sp.csr_matrix((r.local.size, a.local.size), dtype=complex)
                 col_dn = sp.diags(a.sign * a.dudn)
                 col_u = sp.diags(a.sign * a.u)
-                row1, row2 = sp.diags(r.e1), sp.diags(r.e2)
+                row1, row2 = sp.diags(r_e1), sp.diags(r.e2)
                 pick = {nm: mat[r.local][:, a.local] for nm, mat in exact.items()}
                 if "s" in pick:
                     block = block + row1 @ pick["s"] @ col_dn
@@ -378,7 +474,7 @@ class _RegionOperator:
                 where[a.local] = np.arange(a.local.size)
                 common = np.flatnonzero(where[r.local] >= 0)
                 j = where[r.local[common]]
-                ident = 0.5 * (r.e1[common] * a.u[j] + r.e2[common] * a.dudn[j])
+                ident = 0.5 * (r_e1[common] * a.u[j] + r.e2[common] * a.dudn[j])
                 block = block + sp.csr_matrix((ident, (common, j)), shape=block.shape)
                 coo = block.tocoo()
                 parts.append(sp.coo_matrix((coo.data, (r.unknowns[coo.row], a.unknowns[coo.col])), shape=(n, n)))
@@ -401,14 +497,48 @@ class FastSystem:
         pyfmmlib precision flag (``fmm_precision``).
     """
 
-    def __init__(self, system: DiscreteSystem, precision: int) -> None:
+    def __init__(self, system: DiscreteSystem, precision: int, radiation_rows: bool = True) -> None:
         base = system.base if isinstance(system, CompressedSystem) else system
         if not isinstance(base, BoundarySystem):
             raise TypeError(f"the fast solver cannot apply a {type(system).__name__}")
+        self.base = base
         self.n = int(system.n_unknowns)
-        self.regions = [_RegionOperator(base, region, precision) for region in base.regions]
         self.zones = system.zone_blocks() if isinstance(system, CompressedSystem) else []
+        self.rows = self._radiation_rows(base) if radiation_rows else []
+        self.regions = [_RegionOperator(base, region, precision, [nodes for nodes, _ in self.rows])
+                        for region in base.regions]
         self.matvecs = 0
+
+    def _radiation_rows(self, base: BoundarySystem) -> list[tuple[IntArray, RadiationRows]]:
+        """Closed Dirichlet contours without corner zones, in a one-region system: their nodes and ``B``."""
+        if not base.is_simple:
+            return []
+        mesh = base.mesh
+        zone_panels = set(int(i) for i in mesh.zone_panels())
+        out = []
+        for c, f in enumerate(base.formulations):
+            panels = np.flatnonzero(mesh.contour_of_panel == c)
+            if f.name != "dirichlet" or mesh.open_chain or zone_panels.intersection(panels.tolist()):
+                continue
+            nodes = (panels[:, None] * mesh.p + np.arange(mesh.p)[None, :]).ravel()
+            out.append((nodes, RadiationRows(mesh, panels, base.k)))
+        return out
+
+    @property
+    def preconditioned(self) -> bool:
+        """False when every row is a radiation-condition row (the system is then close to the identity)."""
+        covered = sum(nodes.size for nodes, _ in self.rows)
+        return covered < self.base.mesh.n_nodes
+
+    def right_hand_sides(self, u_inc: ComplexArray, dudn_inc: ComplexArray) -> ComplexArray:
+        """The system's right-hand sides, with ``B u_inc / |k|`` on the radiation-condition rows."""
+        rhs = self.base.right_hand_sides(u_inc, dudn_inc)
+        kr = abs(self.base.k)
+        c1, c2, _, _ = self.base._simple_vectors() if self.rows else (None, None, None, None)
+        for nodes, rows in self.rows:
+            assert c2 is not None
+            rhs[nodes] = c2[nodes, None] * dudn_inc[nodes] + rows.apply(u_inc[nodes]) / kr
+        return rhs
 
     @property
     def near_entries(self) -> int:
@@ -416,8 +546,11 @@ class FastSystem:
 
     def _base(self, x: ComplexArray) -> ComplexArray:
         out = np.zeros(self.n, dtype=complex)
+        kr = abs(self.base.k)
         for region in self.regions:
-            region.apply(x, out)
+            e1 = region.apply(x, out)
+            for nodes, rows in self.rows:
+                out[nodes] += rows.apply(e1[nodes]) / kr
         return out
 
     def apply(self, x: ComplexArray) -> ComplexArray:
@@ -468,6 +601,7 @@ class GmresReport:
     iterations: list[int] = field(default_factory=list)
     residuals: list[float] = field(default_factory=list)
     recycled_directions: int = 0
+    iterate_s: float = 0.0
 
 
 class _Recycled:
@@ -596,9 +730,18 @@ class _FastPrepared:
     def condition_estimate(self) -> float | None:
         return None
 
+    @property
+    def iterations(self) -> list[int]:
+        return self.report.iterations
+
+    def right_hand_sides(self, u_inc: ComplexArray, dudn_inc: ComplexArray) -> ComplexArray:
+        """Right-hand sides of the equations this solver iterates on (see ``FastSystem``)."""
+        return self.system.right_hand_sides(u_inc, dudn_inc)
+
     def solve(self, rhs: ComplexArray) -> ComplexArray:
         t0 = time.perf_counter()
-        krylov = _Recycled(self.system.apply, self.lu.solve, self.system.n, self.rtol, self.max_vectors)
+        precondition = self.lu.solve if self.lu is not None else (lambda v: v)
+        krylov = _Recycled(self.system.apply, precondition, self.system.n, self.rtol, self.max_vectors)
         out = np.zeros_like(rhs, dtype=complex)
         for col in range(rhs.shape[1]):
             out[:, col], steps, residual = krylov.solve(rhs[:, col])
@@ -611,7 +754,7 @@ class _FastPrepared:
                 f"GMRES reached a relative residual of {worst:.1e}, above its target {self.rtol:.1e}",
                 NotConvergedWarning, stacklevel=2,
             )
-        self.timings_s["iterate_s"] = self.timings_s.get("iterate_s", 0.0) + time.perf_counter() - t0
+        self.report.iterate_s += time.perf_counter() - t0
         return out
 
 
@@ -641,9 +784,11 @@ class FastMultipole:
         t0 = time.perf_counter()
         fast = FastSystem(system, fmm_precision(0.1 * self.residual_target))
         t1 = time.perf_counter()
-        near = fast.near_matrix()
-        lu = spla.splu(near, permc_spec="COLAMD")
-        del near
+        lu = None
+        if fast.preconditioned:
+            near = fast.near_matrix()
+            lu = spla.splu(near, permc_spec="COLAMD")
+            del near
         t2 = time.perf_counter()
         budget = RECYCLE_MEMORY_SHARE * available_memory_bytes()
         max_vectors = int(budget // (2 * 16 * max(fast.n, 1)))

@@ -57,6 +57,7 @@ __all__ = [
     "field_on_grid",
     "inside_mask",
     "scattered_field",
+    "serial_numba",
 ]
 
 FloatArray = NDArray[np.float64]
@@ -201,7 +202,7 @@ def _children(mesh: PanelMesh, panel: int, n_child: int) -> list[dict[str, Any]]
 
 
 @contextmanager
-def _serial_numba() -> Iterator[None]:
+def serial_numba() -> Iterator[None]:
     """Run the small compiled calls of the near part on one thread.
 
     Each panel's correction is a few hundred kernel values; a parallel
@@ -318,7 +319,7 @@ def scattered_field(
     if pts.shape[0] == 0:
         return np.zeros((0, u2.shape[1]), dtype=complex)
     out = _far_part(mesh, k, u2, psi2, pts)
-    with _serial_numba():
+    with serial_numba():
         out += _near_part(mesh, k, u2, psi2, pts, int(upsample))
     return out
 

@@ -240,6 +240,8 @@ class SolveReport:
     condition_estimate: float | None
     memory_planned_bytes: int
     timings_s: dict[str, float] = field(default_factory=dict)
+    #: Iterations per right-hand side, for iterative solvers.
+    iterations: list[int] | None = None
 
 
 @dataclass
@@ -294,7 +296,11 @@ def solve_boundary(
         u_inc, dn_inc = incident_field(incidents, mesh.nodes, mesh.normals, system.k)
     else:
         u_inc, dn_inc = incident_values(system)
-    x = prepared.solve(system.right_hand_sides(u_inc, dn_inc))
+    # a solver may iterate on its own combination of the boundary equations
+    # (same unknowns); it then builds the right-hand sides itself
+    own_rhs = getattr(prepared, "right_hand_sides", None)
+    rhs = own_rhs(u_inc, dn_inc) if own_rhs is not None else system.right_hand_sides(u_inc, dn_inc)
+    x = prepared.solve(rhs)
     t2 = time.perf_counter()
     u, dudn = system.traces(x)
     stages = prepared.timings_s
@@ -302,5 +308,6 @@ def solve_boundary(
         "assemble_s": stages.get("assemble_s", 0.0),
         "factorise_and_solve_s": sum(v for key, v in stages.items() if key != "assemble_s") + (t2 - t1),
     }
-    report = SolveReport(active.name, system.n_unknowns, prepared.condition_estimate, planned, timings)
+    report = SolveReport(active.name, system.n_unknowns, prepared.condition_estimate, planned, timings,
+                         list(getattr(prepared, "iterations", []) or []) or None)
     return BoundarySolution(system, x, u, dudn, report)
