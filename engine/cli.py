@@ -70,6 +70,11 @@ def _parser() -> argparse.ArgumentParser:
                      help="only this layer (repeatable, glob allowed, case-insensitive as in a case)")
     ins.add_argument("--json", action="store_true", help="machine-readable report on stdout")
     ins.add_argument("--preview", type=Path, help="write a PNG of the cleaned bodies (folders are created)")
+    plan = sub.add_parser(
+        "plan", help="estimate, per frequency, the unknowns, memory and time of each solver and the one chosen",
+    )
+    plan.add_argument("case", help="case file (TOML)")
+    plan.add_argument("--json", action="store_true", help="machine-readable plan on stdout")
     new = sub.add_parser("new", help="write a commented starter case that runs as written")
     new.add_argument("case", type=Path, help="case file to create (TOML)")
     new.add_argument("--force", action="store_true", help="replace an existing file")
@@ -318,6 +323,48 @@ def _inspect(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _plan(args: argparse.Namespace) -> int:
+    """``sectionwave plan``: the cost plan of the first mesh of every frequency; nothing is solved."""
+    from sectionwave.importers.errors import SectionwaveError
+
+    from . import load_case
+    from .run import plan_problem
+    from .solve import available_memory_bytes
+
+    case = load_case(args.case)
+    try:
+        plans = plan_problem(case.problem)
+    except SectionwaveError as exc:
+        raise _BadInput(f"{case.output.case}: {exc}") from None
+    rows: list[dict[str, Any]] = []
+    for freq, plan in plans:
+        rows.append({
+            "frequency_hz": freq,
+            "unknowns": plan.unknowns,
+            "methods": {c.method: {"memory_bytes": c.memory_bytes, "time_s": round(c.time_s, 3), "fits": c.fits}
+                        for c in plan.costs},
+            "chosen": plan.chosen,
+            "reason": plan.reason,
+        })
+    avail = available_memory_bytes()
+    if args.json:
+        doc = {"schema": "sectionwave.plan/1", "case": case.output.case, "method": case.problem.solver.method,
+               "available_memory_bytes": avail, "incident_waves": len(case.problem.incidents),
+               "frequencies": rows}
+        print(json.dumps(doc, indent=2))
+    else:
+        print(f"{case.output.case}: method = {case.problem.solver.method}, {len(case.problem.incidents)} incident "
+              f"wave(s), {avail / 2**30:.1f} GiB available (estimates for the first mesh; refinement may add)")
+        print(f"{'frequency_hz':>14} {'unknowns':>9} {'dense GiB':>10} {'dense s':>9} {'fast GiB':>9} "
+              f"{'fast s':>9}  chosen")
+        for r in rows:
+            d, f = r["methods"]["dense"], r["methods"]["fast"]
+            print(f"{r['frequency_hz']:>14.6g} {r['unknowns']:>9d} {d['memory_bytes'] / 2**30:>10.2f} "
+                  f"{d['time_s']:>9.3g} {f['memory_bytes'] / 2**30:>9.2f} {f['time_s']:>9.3g}  "
+                  f"{r['chosen'] or 'refused'} ({r['reason']})")
+    return EXIT_BAD_INPUT if any(r["chosen"] is None for r in rows) else EXIT_OK
+
+
 def _new(args: argparse.Namespace) -> int:
     from .starter import STARTER_CASE
 
@@ -375,6 +422,8 @@ def _dispatch(args: argparse.Namespace) -> int:
         return _run(args)
     if args.command == "new":
         return _new(args)
+    if args.command == "plan":
+        return _plan(args)
     return _inspect(args)
 
 

@@ -725,6 +725,7 @@ class _FastPrepared:
     timings_s: dict[str, float]
     max_vectors: int
     report: GmresReport = field(default_factory=GmresReport)
+    method_name: str = "fast multipole + GMRES"
 
     @property
     def condition_estimate(self) -> float | None:

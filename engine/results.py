@@ -104,6 +104,10 @@ class FrequencySolution:
     near_field: NearFieldResult | None = None
     dudn_inside: ComplexArray | None = None
     rebuilt: SurfaceTraces | None = None
+    #: The linear solver of the last pass (``dense LU`` or ``fast multipole + GMRES``).
+    solver_method: str = "dense LU"
+    #: GMRES iterations per incident wave (fast solver), else None.
+    iterations: list[int] | None = None
 
     def surface(self) -> SurfaceTraces:
         """Point values on the boundary for the surface files (rebuilt next to corners)."""

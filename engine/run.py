@@ -27,13 +27,13 @@ from .compression import CompressedSystem
 from .fields import cross_sections, far_field, far_field_each, incident_field, surface_absorption
 from .formulations import formulation_for
 from .mesh import BoundaryContour, PanelMesh, build_panels
+from .plan import AutoSolver, SystemPlan, plan_system
 from .problem import NearFieldRequest, Problem
 from .rcip_system import coarse_corner_mesh
 from .regions import Layout, check_corner_contrast, scene_layout
 from .results import FieldSamples, FrequencySolution, NearFieldResult, RunResult, RunSettings, SurfaceTraces
 from .solve import (
     CONDITION_WARN,
-    DenseLU,
     IllConditionedWarning,
     LinearSolver,
     fits_in_memory,
@@ -41,7 +41,10 @@ from .solve import (
 )
 from .system import BoundarySystem, DiscreteSystem, Region
 
-__all__ = ["METHOD", "SURFACE_LEVELS", "assemble_result", "panel_wavelengths", "solve_frequency", "solve_problem"]
+__all__ = [
+    "METHOD", "SURFACE_LEVELS", "assemble_result", "default_solver", "panel_wavelengths", "plan_problem",
+    "solve_frequency", "solve_problem",
+]
 
 #: Refined levels on which the surface files show the density next to a compressed
 #: corner (the innermost panel is 2^-8 of the coarse one).
@@ -50,8 +53,27 @@ SURFACE_LEVELS = 8
 #: What the engine does, in words, for reports.
 METHOD = (
     "Nystrom, kernel-split product integration on Gauss-Legendre panels; "
-    "combined-field (Dirichlet) and Burton-Miller (Neumann, impedance) equations; dense LU"
+    "combined-field (Dirichlet) and Burton-Miller (Neumann, impedance) equations; dense LU, or GMRES "
+    "with fast multipole products for large problems (the cost plan chooses)"
 )
+
+
+def default_solver(problem: Problem) -> LinearSolver:
+    """The solver a run uses unless told otherwise: the case's method, chosen per system by the cost plan."""
+    s = problem.solver
+    return AutoSolver(s.tolerance, s.method, len(problem.incidents))
+
+
+def plan_problem(problem: Problem) -> list[tuple[float, SystemPlan]]:
+    """The cost plan of the first mesh of every frequency (nothing is solved or allocated densely)."""
+    layout = scene_layout(problem)
+    solver = default_solver(problem)
+    out = []
+    for freq in problem.frequencies_hz:
+        scene = _Scene(problem, layout, freq)
+        mesh, _ = _first_mesh(scene, _fits(scene, solver))
+        out.append((float(freq), plan_system(scene.system(mesh), problem.solver.method, len(problem.incidents))))
+    return out
 
 
 def panel_wavelengths(problem: Problem) -> float:
@@ -90,7 +112,7 @@ def solve_problem(
     RunResult
     """
     start = time.perf_counter()
-    active: LinearSolver = solver if solver is not None else DenseLU()
+    active: LinearSolver = solver if solver is not None else default_solver(problem)
     layout = scene_layout(problem)
     results = []
     total = len(problem.frequencies_hz)
@@ -113,7 +135,7 @@ def solve_frequency(
     order, in other processes or on other machines, and assemble them with
     :func:`assemble_result`.
     """
-    active: LinearSolver = solver if solver is not None else DenseLU()
+    active: LinearSolver = solver if solver is not None else default_solver(problem)
     return _solve_frequency(_Scene(problem, scene_layout(problem), float(frequency_hz)), active, progress)
 
 
@@ -361,6 +383,8 @@ def _solve_frequency(
         estimated_error=adaptive.estimated_error,
         refinement_change=adaptive.refinement_change,
         refinements=adaptive.refinements,
+        solver_method=solution.report.method,
+        iterations=solution.report.iterations,
         timings_s=timings,
         warnings=notes,
         near_field=near,

@@ -203,6 +203,7 @@ class LinearSolver(Protocol):
 class _DenseFactors:
     factors: Factorisation
     timings_s: dict[str, float]
+    method_name: str = "dense LU"
 
     @property
     def condition_estimate(self) -> float | None:
@@ -308,6 +309,7 @@ def solve_boundary(
         "assemble_s": stages.get("assemble_s", 0.0),
         "factorise_and_solve_s": sum(v for key, v in stages.items() if key != "assemble_s") + (t2 - t1),
     }
-    report = SolveReport(active.name, system.n_unknowns, prepared.condition_estimate, planned, timings,
+    method = str(getattr(prepared, "method_name", active.name))
+    report = SolveReport(method, system.n_unknowns, prepared.condition_estimate, planned, timings,
                          list(getattr(prepared, "iterations", []) or []) or None)
     return BoundarySolution(system, x, u, dudn, report)

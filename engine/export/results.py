@@ -210,6 +210,8 @@ def summary_dict(
             "refinement_change": _finite(fr.refinement_change),
             "refinements": fr.refinements,
             "condition_estimate": _finite(fr.condition_estimate),
+            "solver_method": fr.solver_method,
+            "iterations": fr.iterations,
             "timings_s": fr.timings_s,
             "warnings": fr.warnings,
         }
