@@ -41,7 +41,7 @@ from .solve import (
 )
 from .system import BoundarySystem, DiscreteSystem, Region
 
-__all__ = ["METHOD", "SURFACE_LEVELS", "panel_wavelengths", "solve_problem"]
+__all__ = ["METHOD", "PANEL_DEFAULT", "PANEL_RULE", "SURFACE_LEVELS", "panel_wavelengths", "solve_problem"]
 
 #: Refined levels on which the surface files show the density next to a compressed
 #: corner (the innermost panel is 2^-8 of the coarse one).
@@ -54,17 +54,45 @@ METHOD = (
 )
 
 
-def panel_wavelengths(problem: Problem) -> float:
-    """Longest panel in wavelengths: the problem's setting, or the measured default.
+#: Calibrated factors of the a-priori panel rule (``panel_wavelengths``) by
+#: boundary kind: with 16 nodes the first mesh of a smooth PEC body lands near
+#: the requested tolerance (circles at ka = 50 and 500 and a 2:1 ellipse,
+#: against the series of Balanis ch. 11 and a finer run; see
+#: benchmarks/bench_mesh_guess.py), so the estimate usually accepts it at once.
+PANEL_RULE = {"dirichlet": 1.25, "neumann": 1.0}
+#: Measured defaults of the other kinds, in wavelengths: impedance surfaces
+#: (whose equation differentiates the density) need half a wavelength for 1e-8.
+PANEL_DEFAULT = {"impedance": 0.5, "penetrable": 1.0}
 
-    With 16 nodes, panels of one wavelength reach 1e-10 on smooth PEC
-    bodies; impedance surfaces (whose equation differentiates the density)
-    need half that for 1e-8 (measured against the circle's series).
+
+def panel_wavelengths(problem: Problem) -> float:
+    """Longest panel in wavelengths: the problem's setting, or the a-priori rule.
+
+    On a panel of ``L`` wavelengths the density varies like
+    ``exp(j pi L t)`` in the panel parameter ``t``, whose Legendre
+    coefficient of degree ``p`` is about ``(e pi L / (2 p))^p`` (the
+    Bessel-function asymptote ``J_p(x) ~ (e x / (2 p))^p / sqrt(2 pi p)``,
+    DLMF 10.19.1); the rule is therefore
+    ``L = c (2 p / (e pi)) tolerance^(1/p)`` with ``c`` calibrated per
+    boundary kind (``PANEL_RULE``). Impedance and penetrable boundaries keep
+    their measured defaults (``PANEL_DEFAULT``); a scene takes the shortest
+    panels any of its bodies asks for.
     """
-    if problem.solver.max_panel_wavelengths is not None:
-        return problem.solver.max_panel_wavelengths
-    has_impedance = any(s.boundary == "impedance" for s in problem.scatterers)
-    return 0.5 if has_impedance else 1.0
+    s = problem.solver
+    if s.max_panel_wavelengths is not None:
+        return s.max_panel_wavelengths
+    p = s.nodes_per_panel
+    law = 2.0 * p / (math.e * math.pi) * s.tolerance ** (1.0 / p)
+    lengths = []
+    for body in problem.scatterers:
+        kind = body.boundary
+        if kind in PANEL_DEFAULT:
+            lengths.append(PANEL_DEFAULT[kind])
+        elif kind == "hard" or (kind == "pec" and problem.field == "te"):
+            lengths.append(PANEL_RULE["neumann"] * law)
+        else:
+            lengths.append(PANEL_RULE["dirichlet"] * law)
+    return min(lengths, default=1.0)
 
 
 def solve_problem(
@@ -237,6 +265,31 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
     return mesh, notes
 
 
+#: A uniform remesh aims at this share of the tolerance.
+REMESH_TARGET = 0.5
+
+
+def _uniform_remesh(scene: _Scene) -> Callable[[PanelMesh, float], PanelMesh | None]:
+    """Remeshing with shorter panels, sized by the law of ``panel_wavelengths``.
+
+    An estimate ``ratio`` times the tolerance asks for panels
+    ``(REMESH_TARGET / ratio)^(1/p)`` times as long (at least 5 % shorter).
+    """
+    s = scene.problem.solver
+    state = {"mpw": panel_wavelengths(scene.problem)}
+
+    def remesh(mesh: PanelMesh, ratio: float) -> PanelMesh | None:
+        shrink = min(0.95, (REMESH_TARGET / max(ratio, 1e-300)) ** (1.0 / s.nodes_per_panel))
+        mpw = state["mpw"] * shrink
+        finer = build_panels(scene.boundaries(), p=s.nodes_per_panel, tolerance=s.tolerance, max_panel_wavelengths=mpw)
+        if finer.n_nodes <= mesh.n_nodes:
+            return None
+        state["mpw"] = mpw
+        return finer
+
+    return remesh
+
+
 def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
     problem, freq = scene.problem, scene.frequency_hz
     k = scene.k
@@ -280,6 +333,7 @@ def _solve_frequency(scene: _Scene, solver: LinearSolver) -> FrequencySolution:
         max_refinements=problem.solver.max_refinements,
         fits=fits,
         where=f"at {freq:.6g} Hz",
+        remesh=None if scene.compressed else _uniform_remesh(scene),
     )
     mesh = adaptive.mesh
     solution = adaptive.last.solution
