@@ -53,6 +53,9 @@ RATIO_SLACK = 1.1
 #: A piece cut to the wavelength rule may be this much longer than the rule
 #: before it is halved (the cuts interpolate the arc length).
 LENGTH_SLACK = 1.02
+#: Legendre coefficients of the coordinates below this many rounding units of
+#: their size are taken as resolved.
+ROUNDING_TAIL = 64.0
 #: Cells on which the arc length of a piece is tabulated for equal cuts.
 _ARC_CELLS = 64
 #: Deepest dyadic refinement toward a corner (panels of 2^-40 of the first
@@ -332,7 +335,11 @@ def _piece_geometry(segment: Segment, a: float, b: float, p: int) -> tuple[float
     turn = float(np.dot(w, np.abs(curv) * speed))
     pts = segment.points(t)
     coef = legendre_analysis_matrix(p) @ pts
-    tail = float(np.max(np.abs(coef[-3:]))) / max(length, 1e-300)
+    # Coefficients at the rounding level of the coordinates are noise: halving
+    # cannot lower them (relative to the length it raises them, without end).
+    tail = float(np.max(np.abs(coef[-3:])))
+    noise = ROUNDING_TAIL * np.finfo(float).eps * float(np.max(np.abs(pts)))
+    tail = 0.0 if tail <= noise else tail / max(length, 1e-300)
     # A parametrisation whose speed varies a lot is hard to interpolate too.
     tail = max(tail, float(np.max(np.abs(legendre_analysis_matrix(p) @ speed)[-3:])) / max(speed.mean(), 1e-300))
     return length, turn, tail
