@@ -6,9 +6,9 @@ estimated error
     On each panel, the size of the last two Legendre coefficients of the
     boundary unknowns, times the panel length, relative to the unknowns'
     integral over the whole boundary, summed over panels (worst over the
-    incident waves); on smooth contours of a calibrated boundary kind
-    (``CALIBRATED_SCALE``) the panels' estimates add in quadrature instead,
-    times that kind's calibrated factor (``global_estimate``); once a
+    incident waves); on one smooth contour of a calibrated boundary kind,
+    meshed uniformly and finely enough, that sum calibrated against measured
+    errors (``CALIBRATION``, ``global_estimate``); once a
     refinement has happened, the smaller of that
     and the far-field change under the last refinement (which measures the
     error of the coarser mesh, so it bounds the finer one as well); never
@@ -18,6 +18,9 @@ marking
     Doerfler marking: the fewest panels carrying ``MARK_FRACTION`` of the
     estimate are halved, the mesh regraded and the system solved again, at
     most ``max_refinements`` times, and never into a mesh that would not fit.
+    A calibrated mesh that misses the tolerance is instead remeshed
+    uniformly with shorter panels (the orchestrator's ``remesh``), so that
+    its estimate stays calibrated.
 """
 
 from __future__ import annotations
@@ -40,10 +43,11 @@ __all__ = [
     "MARK_FRACTION",
     "AccuracyWarning",
     "AdaptiveResult",
-    "CALIBRATED_MIN_PANELS",
+    "Calibration",
+    "CALIBRATED_MAX_WAVELENGTHS",
     "CALIBRATED_NODES",
-    "CALIBRATED_SCALE",
     "CALIBRATED_SPREAD",
+    "CALIBRATION",
     "SolvePass",
     "global_estimate",
     "is_calibrated",
@@ -57,23 +61,40 @@ ComplexArray = NDArray[np.complex128]
 
 #: Doerfler marking: refine the fewest panels that carry this share of the estimate.
 MARK_FRACTION = 0.8
-#: Calibrated factors of the summed panel estimates, by boundary kind, on one
-#: smooth contour with 16 nodes per panel and at least ``CALIBRATED_MIN_PANELS``
-#: panels. The plain sum over-states the far-field error by 90 to 7000 times
-#: there (PEC circles at ka = 20 to 500 against the series of Balanis ch. 11,
-#: and a 2:1 ellipse at ka = 50 against a finer run): the Nystrom nodes and the
+@dataclass(frozen=True)
+class Calibration:
+    """How the summed panel estimates of one boundary kind relate to the far-field error.
+
+    On a calibrated mesh the estimate is ``factor * sum / n_panels**panel_power``.
+    """
+
+    factor: float
+    panel_power: float
+    min_panels: int
+
+
+#: Calibrations by boundary kind (``Formulation.name``), valid on one smooth
+#: contour meshed uniformly (``is_calibrated``). The plain sum over-states the
+#: far-field error by 80 to 9000 times there: the Nystrom nodes and the
 #: far-field quadrature are far more accurate than the Legendre tail of the
-#: density suggests. The factors keep the estimate at least 2.5 times the error
-#: measured in all those runs. Other kinds, meshes with corners or several
-#: contours, other node counts and coarse meshes keep the plain sum.
-CALIBRATED_SCALE: dict[str, float] = {"dirichlet": 1.0 / 250.0, "neumann": 1.0 / 40.0}
-#: Fewest panels for the calibrated factors (few panels, as on a circle of ka = 3,
-#: see errors near the plain sum).
-CALIBRATED_MIN_PANELS = 24
-#: Nodes per panel the factors were measured with.
+#: density suggests, and more so the more panels there are for the Dirichlet
+#: kind. Measured on PEC circles at ka = 10 to 500 against the series of
+#: Balanis ch. 11 and on a 2:1 ellipse at ka = 50 and 500 against a finer run
+#: (benchmarks/bench_mesh_guess.py --raw writes the measurements); the
+#: factors keep the estimate at least twice the error in every one of them.
+#: Other kinds, corners, several contours, other node counts, coarse or
+#: locally refined meshes keep the plain sum.
+CALIBRATION: dict[str, Calibration] = {
+    "dirichlet": Calibration(factor=1.0 / 40.0, panel_power=0.5, min_panels=12),
+    "neumann": Calibration(factor=1.0 / 40.0, panel_power=0.0, min_panels=20),
+}
+#: Nodes per panel the calibrations were measured with.
 CALIBRATED_NODES = 16
-#: Longest over shortest panel of the meshes the factors were measured on.
+#: Longest over shortest panel of the meshes the calibrations were measured on.
 CALIBRATED_SPREAD = 1.25
+#: Longest panel, in wavelengths, of the meshes the calibrations were measured on
+#: (longer panels resolve the density too poorly for the tails to follow the error).
+CALIBRATED_MAX_WAVELENGTHS = 2.0
 #: Refinement stops when this many refinements in a row each failed to halve the
 #: estimate: it is then held up by rounding (or by what refining cannot reach).
 STALLED_AFTER = 2
@@ -117,7 +138,9 @@ def panel_estimates(mesh: PanelMesh, unknowns: list[ComplexArray]) -> NDArray[np
     return est
 
 
-def global_estimate(mesh: PanelMesh, estimates: NDArray[np.float64], kinds: Sequence[str]) -> float:
+def global_estimate(
+    mesh: PanelMesh, estimates: NDArray[np.float64], kinds: Sequence[str], wavenumber: complex | None = None,
+) -> float:
     """The relative far-field error estimate of the whole mesh from its panel estimates.
 
     Parameters
@@ -128,32 +151,41 @@ def global_estimate(mesh: PanelMesh, estimates: NDArray[np.float64], kinds: Sequ
         ``panel_estimates`` of the mesh.
     kinds
         Names of the formulations of its contours (``Formulation.name``).
+    wavenumber
+        Wavenumber of the medium around the contour (None: not known).
 
     Returns
     -------
     float
-        The sum of the estimates, times ``CALIBRATED_SCALE[kind]`` where that
-        factor was measured: one smooth contour of a calibrated kind, with
-        ``CALIBRATED_NODES`` nodes and at least ``CALIBRATED_MIN_PANELS`` panels.
+        The sum of the estimates, calibrated (``CALIBRATION``) where
+        ``is_calibrated`` holds.
     """
     total = float(np.sum(estimates))
-    return CALIBRATED_SCALE[kinds[0]] * total if is_calibrated(mesh, kinds) else total
+    if not is_calibrated(mesh, kinds, wavenumber):
+        return total
+    cal = CALIBRATION[kinds[0]]
+    return cal.factor * total / mesh.n_panels**cal.panel_power
 
 
-def is_calibrated(mesh: PanelMesh, kinds: Sequence[str]) -> bool:
-    """Whether ``CALIBRATED_SCALE`` holds on ``mesh``.
+def is_calibrated(mesh: PanelMesh, kinds: Sequence[str], wavenumber: complex | None) -> bool:
+    """Whether ``CALIBRATION`` holds on ``mesh``.
 
-    One smooth contour of a calibrated kind, ``CALIBRATED_NODES`` nodes per
-    panel, at least ``CALIBRATED_MIN_PANELS`` panels of nearly equal length
-    (within ``CALIBRATED_SPREAD``), as the a-priori rule makes them. After
-    local refinement the error no longer follows the tails the same way
+    One smooth contour of a calibrated kind in a medium of real wavenumber,
+    ``CALIBRATED_NODES`` nodes per panel, at least the kind's ``min_panels``,
+    all of nearly equal length (within ``CALIBRATED_SPREAD``) and at most
+    ``CALIBRATED_MAX_WAVELENGTHS`` long, as the a-priori rule makes them.
+    After local refinement the error no longer follows the tails the same way
     (measured on the ellipse), so refined meshes keep the plain sum.
     """
-    if len(kinds) != 1 or kinds[0] not in CALIBRATED_SCALE or mesh.p != CALIBRATED_NODES:
+    if len(kinds) != 1 or kinds[0] not in CALIBRATION or mesh.p != CALIBRATED_NODES:
         return False
-    if mesh.n_panels < CALIBRATED_MIN_PANELS or mesh.corner_zones or bool(np.any(mesh.corner_at_start)):
+    if wavenumber is None or abs(complex(wavenumber).imag) > 0.0 or complex(wavenumber).real <= 0.0:
         return False
-    return float(np.max(mesh.lengths)) <= CALIBRATED_SPREAD * float(np.min(mesh.lengths))
+    if mesh.n_panels < CALIBRATION[kinds[0]].min_panels or mesh.corner_zones or bool(np.any(mesh.corner_at_start)):
+        return False
+    longest, shortest = float(np.max(mesh.lengths)), float(np.min(mesh.lengths))
+    wavelength = 2.0 * np.pi / complex(wavenumber).real
+    return longest <= CALIBRATED_SPREAD * shortest and longest <= CALIBRATED_MAX_WAVELENGTHS * wavelength
 
 
 def mark_panels(estimates: NDArray[np.float64], fraction: float = MARK_FRACTION) -> NDArray[np.int64]:
@@ -220,7 +252,8 @@ def refine_until_accurate(
             change = float(np.max(np.abs(ff - previous_ff)) / max(np.max(np.abs(ff)), 1e-300))
         est = panel_estimates(mesh, current.solution.system.node_unknowns(current.solution.unknowns))
         kinds = [f.name for f in getattr(current.solution.system, "formulations", ())]
-        tail_estimate = global_estimate(mesh, est, kinds)
+        wavenumber = getattr(current.solution.system, "k", None)
+        tail_estimate = global_estimate(mesh, est, kinds, wavenumber)
         estimated = tail_estimate if change is None else min(tail_estimate, change)
         if current.cross_sections is not None:
             estimated = max(estimated, float(np.max(current.cross_sections.optical_residual)))
@@ -237,7 +270,7 @@ def refine_until_accurate(
             )
             break
         bad = mark_panels(est)
-        finer = remesh(mesh, estimated / tolerance) if remesh is not None and is_calibrated(mesh, kinds) else None
+        finer = remesh(mesh, estimated / tolerance) if remesh is not None and is_calibrated(mesh, kinds, wavenumber) else None
         refined = finer if finer is not None else regrade(mesh.split(sorted(bad.tolist())))
         if not fits(refined):
             note(

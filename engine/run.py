@@ -54,44 +54,53 @@ METHOD = (
 )
 
 
-#: Calibrated factors of the a-priori panel rule (``panel_wavelengths``) by
-#: boundary kind: with 16 nodes the first mesh of a smooth PEC body lands near
-#: the requested tolerance (circles at ka = 50 and 500 and a 2:1 ellipse,
-#: against the series of Balanis ch. 11 and a finer run; see
-#: benchmarks/bench_mesh_guess.py), so the estimate usually accepts it at once.
-PANEL_RULE = {"dirichlet": 1.25, "neumann": 1.0}
+#: Calibrated factors ``c`` of the a-priori panel rule (``panel_wavelengths``)
+#: by boundary kind, and the power of the number of panels in it (the
+#: Dirichlet estimate falls like one over the root of the number of panels,
+#: see ``adapt.CALIBRATION``): with 16 nodes the first mesh of a smooth PEC
+#: body lands near the requested tolerance and the estimate accepts it
+#: (circles at ka = 50 and 500 against the series of Balanis ch. 11, a 2:1
+#: ellipse against a finer run; benchmarks/bench_mesh_guess.py).
+PANEL_RULE: dict[str, tuple[float, float]] = {"dirichlet": (1.1, 0.5), "neumann": (1.0, 0.0)}
 #: Measured defaults of the other kinds, in wavelengths: impedance surfaces
 #: (whose equation differentiates the density) need half a wavelength for 1e-8.
 PANEL_DEFAULT = {"impedance": 0.5, "penetrable": 1.0}
 
 
-def panel_wavelengths(problem: Problem) -> float:
+def panel_wavelengths(problem: Problem, frequency_hz: float | None = None) -> float:
     """Longest panel in wavelengths: the problem's setting, or the a-priori rule.
 
     On a panel of ``L`` wavelengths the density varies like
     ``exp(j pi L t)`` in the panel parameter ``t``, whose Legendre
     coefficient of degree ``p`` is about ``(e pi L / (2 p))^p`` (the
-    Bessel-function asymptote ``J_p(x) ~ (e x / (2 p))^p / sqrt(2 pi p)``,
-    DLMF 10.19.1); the rule is therefore
-    ``L = c (2 p / (e pi)) tolerance^(1/p)`` with ``c`` calibrated per
-    boundary kind (``PANEL_RULE``). Impedance and penetrable boundaries keep
-    their measured defaults (``PANEL_DEFAULT``); a scene takes the shortest
+    large-order form ``J_p(x) ~ (e x / (2 p))^p / sqrt(2 pi p)``, DLMF
+    10.19.1, from memory). Hence the rule
+    ``L = c (2 p / (e pi)) (tolerance n^s)^(1/p)`` with ``c`` and ``s``
+    calibrated per boundary kind (``PANEL_RULE``) and ``n`` the number of
+    panels it gives on the scene at ``frequency_hz`` (the first frequency
+    when not given). Impedance and penetrable boundaries keep their
+    measured defaults (``PANEL_DEFAULT``); a scene takes the shortest
     panels any of its bodies asks for.
     """
     s = problem.solver
     if s.max_panel_wavelengths is not None:
         return s.max_panel_wavelengths
     p = s.nodes_per_panel
+    freq = problem.frequencies_hz[0] if frequency_hz is None else frequency_hz
+    wavelengths = sum(body.body.perimeter() for body in problem.scatterers) / problem.wavelength(freq)
     law = 2.0 * p / (math.e * math.pi) * s.tolerance ** (1.0 / p)
     lengths = []
     for body in problem.scatterers:
         kind = body.boundary
         if kind in PANEL_DEFAULT:
             lengths.append(PANEL_DEFAULT[kind])
-        elif kind == "hard" or (kind == "pec" and problem.field == "te"):
-            lengths.append(PANEL_RULE["neumann"] * law)
-        else:
-            lengths.append(PANEL_RULE["dirichlet"] * law)
+            continue
+        neumann = kind == "hard" or (kind == "pec" and problem.field == "te")
+        c, power = PANEL_RULE["neumann" if neumann else "dirichlet"]
+        length = c * law
+        for _ in range(2):  # the number of panels depends on their length: two fixed-point steps
+            length = c * law * max(1.0, wavelengths / length) ** (power / p)
+        lengths.append(length)
     return min(lengths, default=1.0)
 
 
@@ -236,7 +245,7 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
     if scene.compressed:
         mesh, zones = coarse_corner_mesh(
             boundaries, p=problem.solver.nodes_per_panel, tolerance=tol,
-            max_panel_wavelengths=panel_wavelengths(problem),
+            max_panel_wavelengths=panel_wavelengths(problem, freq),
         )
         mesh.corner_zones = tuple(zones)
         return mesh, []
@@ -246,7 +255,7 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
             boundaries,
             p=problem.solver.nodes_per_panel,
             tolerance=tol,
-            max_panel_wavelengths=panel_wavelengths(problem),
+            max_panel_wavelengths=panel_wavelengths(problem, freq),
             corner_tolerance=corner_tol,
         )
         if fits(mesh) or corner_tol >= 1e-2 or not mesh.corner_at_start.any():
@@ -276,7 +285,7 @@ def _uniform_remesh(scene: _Scene) -> Callable[[PanelMesh, float], PanelMesh | N
     ``(REMESH_TARGET / ratio)^(1/p)`` times as long (at least 5 % shorter).
     """
     s = scene.problem.solver
-    state = {"mpw": panel_wavelengths(scene.problem)}
+    state = {"mpw": panel_wavelengths(scene.problem, scene.frequency_hz)}
 
     def remesh(mesh: PanelMesh, ratio: float) -> PanelMesh | None:
         shrink = min(0.95, (REMESH_TARGET / max(ratio, 1e-300)) ** (1.0 / s.nodes_per_panel))
