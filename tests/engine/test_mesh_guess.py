@@ -18,7 +18,7 @@ import scipy.special as sp
 from sectionwave.engine import parse_case, solve_problem
 from sectionwave.engine.adapt import CALIBRATION, global_estimate, is_calibrated
 from sectionwave.engine.mesh import BoundaryContour, build_panels
-from sectionwave.engine.run import panel_wavelengths
+from sectionwave.engine.run import PANEL_RULE, panel_wavelengths
 from sectionwave.importers.curves import Contour, circular_arc, polygon_segments
 
 from tests.reference import C0, case, circle_far_field, relative_error
@@ -51,16 +51,23 @@ def test_wavelength_rule_cuts_equal_pieces():
 
 
 def test_panel_rule_follows_the_tolerance():
-    # L = c (2 p / (e pi)) tol^(1/p): one decade of tolerance is a factor
-    # 10^(1/16) in panel length with 16 nodes (the law in run.panel_wavelengths).
-    def rule(tol: float, field: str = "tm", boundary: str = "pec") -> float:
-        doc = case(field, 1e9, [{"name": "b", "shape": CIRCLE, "boundary": boundary,
-                                 **({"impedance": [1.0, 0.0]} if boundary == "impedance" else {})}],
+    # L = c (2 p / (e pi)) (tol n^s)^(1/p): one decade of tolerance is a factor
+    # 10^(1/16) in panel length with 16 nodes (TE: s = 0); for TM (s = 1/2) the
+    # length solves that law with n = perimeter / L (the law in run.panel_wavelengths).
+    def rule(tol: float, field: str = "te", boundary: str = "pec", freq: float = 1e9) -> float:
+        doc = case(field, freq, [{"name": "b", "shape": CIRCLE, "boundary": boundary,
+                                  **({"impedance": [1.0, 0.0]} if boundary == "impedance" else {})}],
                    solver={"tolerance": tol})
         return panel_wavelengths(parse_case(doc).problem)
 
-    assert rule(1e-8) / rule(1e-10) == pytest.approx(10 ** (1 / 16), rel=1e-12)
-    assert rule(1e-8, "te") < rule(1e-8, "tm")  # the hypersingular equation needs shorter panels
+    assert rule(1e-8) / rule(1e-10) == pytest.approx(10 ** (2 / 16), rel=1e-12)
+    c, s = PANEL_RULE["dirichlet"]
+    for freq in (1e9, 3e10):
+        length = rule(1e-8, "tm", freq=freq)
+        n = 2 * math.pi / (C0 / freq) / length
+        assert length == pytest.approx(c * 32 / (math.e * math.pi) * (1e-8 * n**s) ** (1 / 16), rel=2e-3)
+    assert rule(1e-8, "tm", freq=3e10) > rule(1e-8, "tm", freq=1e9)  # more panels: longer ones suffice
+    assert rule(1e-8) < rule(1e-8, "tm")  # the hypersingular equation needs shorter panels
     assert rule(1e-8, boundary="impedance") == 0.5  # measured default kept
 
 
@@ -77,7 +84,7 @@ def test_plain_sum_where_not_calibrated():
     k = 2 * math.pi / 0.2
     est = np.full(fine.n_panels, 1e-9)
     assert is_calibrated(fine, ["neumann"], k) and not is_calibrated(fine, ["robin"], k)
-    assert not is_calibrated(fine, ["neumann"], k / 3)  # panels of three wavelengths
+    assert not is_calibrated(fine, ["neumann"], 3 * k)  # panels of three wavelengths
     assert not is_calibrated(fine, ["neumann"], None)
     cal = CALIBRATION["dirichlet"]
     assert global_estimate(fine, est, ["dirichlet"], k) == pytest.approx(
