@@ -7,8 +7,10 @@ panel
     parameters; it carries ``p`` Gauss-Legendre nodes. Panels never straddle
     a joint between segments, so corners sit at panel ends.
 sizing
-    A panel is split while it is longer than ``max_panel_wavelengths`` of
-    the shortest wavelength next to it, turns by more than
+    A piece of a segment longer than ``max_panel_wavelengths`` of the
+    shortest wavelength next to it is cut into the fewest pieces of equal
+    arc length that meet it (``_equal_pieces``); then a panel is halved
+    while it is still longer (by more than ``LENGTH_SLACK``), turns by more than
     ``MAX_TURN_RAD``, its coordinates are not resolved by its polynomial
     to the tolerance, it is more than ``GAP_RATIO`` times longer than the
     distance to a non-adjacent part of the boundary, or it is more than

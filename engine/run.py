@@ -22,11 +22,11 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .adapt import AccuracyWarning, SolvePass, refine_until_accurate
+from .adapt import CALIBRATED_MAX_WAVELENGTHS, AccuracyWarning, SolvePass, refine_until_accurate
 from .compression import CompressedSystem
 from .fields import cross_sections, far_field, far_field_each, incident_field, surface_absorption
 from .formulations import formulation_for
-from .mesh import BoundaryContour, PanelMesh, build_panels
+from .mesh import LENGTH_SLACK, BoundaryContour, PanelMesh, build_panels
 from .problem import NearFieldRequest, Problem
 from .rcip_system import coarse_corner_mesh
 from .regions import Layout, check_corner_contrast, scene_layout
@@ -54,14 +54,17 @@ METHOD = (
 )
 
 
-#: Calibrated factors ``c`` of the a-priori panel rule (``panel_wavelengths``)
-#: by boundary kind, and the power of the number of panels in it (the
-#: Dirichlet estimate falls like one over the root of the number of panels,
-#: see ``adapt.CALIBRATION``): with 16 nodes the first mesh of a smooth PEC
-#: body lands near the requested tolerance and the estimate accepts it
-#: (circles at ka = 50 and 500 against the series of Balanis ch. 11, a 2:1
-#: ellipse against a finer run; benchmarks/bench_mesh_guess.py).
-PANEL_RULE: dict[str, tuple[float, float]] = {"dirichlet": (1.1, 0.5), "neumann": (1.0, 0.0)}
+#: The a-priori panel rule (``panel_wavelengths``) by boundary kind: the
+#: factor ``c``, the power ``s`` of the number of panels (the Dirichlet
+#: estimate falls like one over the root of the number of panels, see
+#: ``adapt.CALIBRATION``) and the orders ``d`` lost to derivatives of the
+#: density (Maue's form of the hypersingular operator of the Neumann kind
+#: differentiates it: its error falls like L^14, not L^16, with 16 nodes).
+#: With these the first mesh of a smooth PEC body lands near the requested
+#: tolerance and the estimate accepts it (circles at ka = 50 and 500 against
+#: the series of Balanis ch. 11, a 2:1 ellipse against a finer run;
+#: benchmarks/bench_mesh_guess.py).
+PANEL_RULE: dict[str, tuple[float, float, int]] = {"dirichlet": (1.1, 0.5, 0), "neumann": (1.204, 0.0, 2)}
 #: Measured defaults of the other kinds, in wavelengths: impedance surfaces
 #: (whose equation differentiates the density) need half a wavelength for 1e-8.
 PANEL_DEFAULT = {"impedance": 0.5, "penetrable": 1.0}
@@ -75,12 +78,13 @@ def panel_wavelengths(problem: Problem, frequency_hz: float | None = None) -> fl
     coefficient of degree ``p`` is about ``(e pi L / (2 p))^p`` (the
     large-order form ``J_p(x) ~ (e x / (2 p))^p / sqrt(2 pi p)``, DLMF
     10.19.1, from memory). Hence the rule
-    ``L = c (2 p / (e pi)) (tolerance n^s)^(1/p)`` with ``c`` and ``s``
-    calibrated per boundary kind (``PANEL_RULE``) and ``n`` the number of
-    panels it gives on the scene at ``frequency_hz`` (the first frequency
-    when not given). Impedance and penetrable boundaries keep their
-    measured defaults (``PANEL_DEFAULT``); a scene takes the shortest
-    panels any of its bodies asks for.
+    ``L = c (2 p / (e pi)) (tolerance n^s)^(1 / (p - d))`` with ``c``, ``s``
+    and ``d`` calibrated per boundary kind (``PANEL_RULE``) and ``n`` the
+    number of panels it gives on the scene at ``frequency_hz`` (the first
+    frequency when not given), never longer than the meshes the estimate
+    is calibrated on (``adapt.CALIBRATED_MAX_WAVELENGTHS``). Impedance and
+    penetrable boundaries keep their measured defaults (``PANEL_DEFAULT``);
+    a scene takes the shortest panels any of its bodies asks for.
     """
     s = problem.solver
     if s.max_panel_wavelengths is not None:
@@ -88,7 +92,8 @@ def panel_wavelengths(problem: Problem, frequency_hz: float | None = None) -> fl
     p = s.nodes_per_panel
     freq = problem.frequencies_hz[0] if frequency_hz is None else frequency_hz
     wavelengths = sum(body.body.perimeter() for body in problem.scatterers) / problem.wavelength(freq)
-    law = 2.0 * p / (math.e * math.pi) * s.tolerance ** (1.0 / p)
+    scale = 2.0 * p / (math.e * math.pi)
+    longest = CALIBRATED_MAX_WAVELENGTHS / LENGTH_SLACK
     lengths = []
     for body in problem.scatterers:
         kind = body.boundary
@@ -96,11 +101,13 @@ def panel_wavelengths(problem: Problem, frequency_hz: float | None = None) -> fl
             lengths.append(PANEL_DEFAULT[kind])
             continue
         neumann = kind == "hard" or (kind == "pec" and problem.field == "te")
-        c, power = PANEL_RULE["neumann" if neumann else "dirichlet"]
-        length = c * law
+        c, power, lost = PANEL_RULE["neumann" if neumann else "dirichlet"]
+        order = max(p - lost, 1)
+        length = c * scale * s.tolerance ** (1.0 / order)
         for _ in range(2):  # the number of panels depends on their length: two fixed-point steps
-            length = c * law * max(1.0, wavelengths / length) ** (power / p)
-        lengths.append(length)
+            n = max(1.0, wavelengths / length)
+            length = c * scale * (s.tolerance * n**power) ** (1.0 / order)
+        lengths.append(min(length, longest))
     return min(lengths, default=1.0)
 
 

@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 import scipy.special as sp
 from sectionwave.engine import parse_case, solve_problem
-from sectionwave.engine.adapt import CALIBRATION, global_estimate, is_calibrated
+from sectionwave.engine.adapt import CALIBRATED_MAX_WAVELENGTHS, CALIBRATION, global_estimate, is_calibrated
 from sectionwave.engine.mesh import BoundaryContour, build_panels
 from sectionwave.engine.run import PANEL_RULE, panel_wavelengths
 from sectionwave.importers.curves import Contour, circular_arc, polygon_segments
@@ -51,23 +51,25 @@ def test_wavelength_rule_cuts_equal_pieces():
 
 
 def test_panel_rule_follows_the_tolerance():
-    # L = c (2 p / (e pi)) (tol n^s)^(1/p): one decade of tolerance is a factor
-    # 10^(1/16) in panel length with 16 nodes (TE: s = 0); for TM (s = 1/2) the
-    # length solves that law with n = perimeter / L (the law in run.panel_wavelengths).
+    # L = c (2 p / (e pi)) (tol n^s)^(1 / (p - d)): two decades of tolerance are a
+    # factor 10^(2/14) in panel length with 16 nodes for TE (s = 0, d = 2); for TM
+    # (s = 1/2, d = 0) the length solves that law with n = perimeter / L (the law
+    # in run.panel_wavelengths).
     def rule(tol: float, field: str = "te", boundary: str = "pec", freq: float = 1e9) -> float:
         doc = case(field, freq, [{"name": "b", "shape": CIRCLE, "boundary": boundary,
                                   **({"impedance": [1.0, 0.0]} if boundary == "impedance" else {})}],
                    solver={"tolerance": tol})
         return panel_wavelengths(parse_case(doc).problem)
 
-    assert rule(1e-8) / rule(1e-10) == pytest.approx(10 ** (2 / 16), rel=1e-12)
-    c, s = PANEL_RULE["dirichlet"]
+    assert rule(1e-8) / rule(1e-10) == pytest.approx(10 ** (2 / 14), rel=1e-12)
+    c, s, d = PANEL_RULE["dirichlet"]
     for freq in (1e9, 3e10):
         length = rule(1e-8, "tm", freq=freq)
         n = 2 * math.pi / (C0 / freq) / length
-        assert length == pytest.approx(c * 32 / (math.e * math.pi) * (1e-8 * n**s) ** (1 / 16), rel=2e-3)
+        assert length == pytest.approx(c * 32 / (math.e * math.pi) * (1e-8 * n**s) ** (1 / (16 - d)), rel=2e-3)
     assert rule(1e-8, "tm", freq=3e10) > rule(1e-8, "tm", freq=1e9)  # more panels: longer ones suffice
     assert rule(1e-8) < rule(1e-8, "tm")  # the hypersingular equation needs shorter panels
+    assert rule(1e-3, "tm", freq=3e10) < CALIBRATED_MAX_WAVELENGTHS  # never coarser than calibrated
     assert rule(1e-8, boundary="impedance") == 0.5  # measured default kept
 
 
