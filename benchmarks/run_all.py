@@ -13,6 +13,7 @@ RUNS = [
     ["bench_import.py"],
     ["bench_penetrable.py", "--items", "1,2", "--max-ka", "50"],
     ["bench_startup.py"],
+    ["bench_mesh_guess.py", "--quick"],
 ]
 
 if __name__ == "__main__":
