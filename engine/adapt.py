@@ -61,6 +61,8 @@ ComplexArray = NDArray[np.complex128]
 
 #: Doerfler marking: refine the fewest panels that carry this share of the estimate.
 MARK_FRACTION = 0.8
+
+
 @dataclass(frozen=True)
 class Calibration:
     """How the summed panel estimates of one boundary kind relate to the far-field error.
@@ -81,7 +83,7 @@ class Calibration:
 #: kind. Measured on PEC circles at ka = 10 to 500 against the series of
 #: Balanis ch. 11 and on a 2:1 ellipse at ka = 50 and 500 against a finer run
 #: (benchmarks/bench_mesh_guess.py --raw writes the measurements); the
-#: factors keep the estimate at least twice the error in every one of them.
+#: factors keep the estimate at least 1.9 times the error in every one of them.
 #: Other kinds, corners, several contours, other node counts, coarse or
 #: locally refined meshes keep the plain sum.
 CALIBRATION: dict[str, Calibration] = {
@@ -95,6 +97,7 @@ CALIBRATED_SPREAD = 1.25
 #: Longest panel, in wavelengths, of the meshes the calibrations were measured on
 #: (longer panels resolve the density too poorly for the tails to follow the error).
 CALIBRATED_MAX_WAVELENGTHS = 2.0
+
 #: Refinement stops when this many refinements in a row each failed to halve the
 #: estimate: it is then held up by rounding (or by what refining cannot reach).
 STALLED_AFTER = 2
