@@ -14,6 +14,7 @@ RUNS = [
     ["bench_penetrable.py", "--items", "1,2", "--max-ka", "50"],
     ["bench_startup.py"],
     ["bench_sweep.py", "--quick", "--items", "1,2"],
+    ["bench_mesh_guess.py", "--quick"],
 ]
 
 if __name__ == "__main__":

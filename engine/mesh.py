@@ -7,8 +7,10 @@ panel
     parameters; it carries ``p`` Gauss-Legendre nodes. Panels never straddle
     a joint between segments, so corners sit at panel ends.
 sizing
-    A panel is split while it is longer than ``max_panel_wavelengths`` of
-    the shortest wavelength next to it, turns by more than
+    A piece of a segment longer than ``max_panel_wavelengths`` of the
+    shortest wavelength next to it is cut into the fewest pieces of equal
+    arc length that meet it (``_equal_pieces``); then a panel is halved
+    while it is still longer (by more than ``LENGTH_SLACK``), turns by more than
     ``MAX_TURN_RAD``, its coordinates are not resolved by its polynomial
     to the tolerance, it is more than ``GAP_RATIO`` times longer than the
     distance to a non-adjacent part of the boundary, or it is more than
@@ -50,6 +52,14 @@ SLOT_RATIO = 20.0
 #: ratio up to 2 * RATIO_SLACK is accepted rather than chasing 2 exactly
 #: (which can cascade along the whole curve).
 RATIO_SLACK = 1.1
+#: A piece cut to the wavelength rule may be this much longer than the rule
+#: before it is halved (the cuts interpolate the arc length).
+LENGTH_SLACK = 1.02
+#: Legendre coefficients of the coordinates below this many rounding units of
+#: their size are taken as resolved.
+ROUNDING_TAIL = 64.0
+#: Cells on which the arc length of a piece is tabulated for equal cuts.
+_ARC_CELLS = 64
 #: Deepest dyadic refinement toward a corner (panels of 2^-40 of the first
 #: one; the near-panel Vandermonde systems stay well posed).
 MAX_CORNER_LEVELS = 40
@@ -327,10 +337,40 @@ def _piece_geometry(segment: Segment, a: float, b: float, p: int) -> tuple[float
     turn = float(np.dot(w, np.abs(curv) * speed))
     pts = segment.points(t)
     coef = legendre_analysis_matrix(p) @ pts
-    tail = float(np.max(np.abs(coef[-3:]))) / max(length, 1e-300)
+    # Coefficients at the rounding level of the coordinates are noise: halving
+    # cannot lower them (relative to the length it raises them, without end).
+    tail = float(np.max(np.abs(coef[-3:])))
+    noise = ROUNDING_TAIL * np.finfo(float).eps * float(np.max(np.abs(pts)))
+    tail = 0.0 if tail <= noise else tail / max(length, 1e-300)
     # A parametrisation whose speed varies a lot is hard to interpolate too.
     tail = max(tail, float(np.max(np.abs(legendre_analysis_matrix(p) @ speed)[-3:])) / max(speed.mean(), 1e-300))
     return length, turn, tail
+
+
+def _equal_pieces(segment: Segment, piece: _Piece, hmax: float) -> list[_Piece]:
+    """``piece`` cut into the fewest pieces of equal arc length no longer than ``hmax``.
+
+    Halving alone would overshoot the wavelength rule by up to a factor two
+    (a quarter circle of 12.5 wavelengths would get 16 panels, not 13).
+    """
+    a, b = piece.t0, piece.t1
+    x, w = gauss_legendre(16)
+    edges = np.linspace(a, b, _ARC_CELLS + 1)
+    half = 0.5 * (edges[1:] - edges[:-1])
+    t = edges[:-1, None] + half[:, None] * (x[None, :] + 1.0)
+    speed = np.hypot(*segment.derivative(t.ravel()).T).reshape(t.shape)
+    arc = np.concatenate([[0.0], np.cumsum((speed * w).sum(axis=1) * half)])
+    n = math.ceil(arc[-1] / hmax - 1e-9) if hmax > 0 else 1
+    if n > MAX_PANELS:
+        raise GeometryError(f"the mesh would need more than {MAX_PANELS} panels; check units")
+    if n <= 1 or not np.all(np.diff(arc) > 0):
+        return [piece]
+    cuts = np.interp(np.linspace(0.0, arc[-1], n + 1)[1:-1], arc, edges)
+    ts = [a, *cuts.tolist(), b]
+    return [
+        _Piece(piece.seg, float(lo), float(hi), piece.contour, piece.corner and i == 0)
+        for i, (lo, hi) in enumerate(zip(ts[:-1], ts[1:]))
+    ]
 
 
 def build_panels(
@@ -391,16 +431,16 @@ def build_panels(
         contours.append(pieces)
         hmax.append(max_panel_wavelengths * b.wavelength_m)
 
-    # 1. Wavelength, turning and geometric resolution.
+    # 1. Wavelength (equal pieces), turning and geometric resolution (halving).
     for ci, pieces in enumerate(contours):
         out: list[_Piece] = []
-        stack = list(reversed(pieces))
+        stack = list(reversed([q for pc in pieces for q in _equal_pieces(segments[pc.seg], pc, hmax[ci])]))
         while stack:
             pc = stack.pop()
             length, turn, tail = _piece_geometry(segments[pc.seg], pc.t0, pc.t1, p)
             if length <= 0.0:
                 raise GeometryError(f"contour {ci} has a zero-length piece")
-            if (length > hmax[ci] or turn > MAX_TURN_RAD or tail > geo_tol) and (
+            if (length > LENGTH_SLACK * hmax[ci] or turn > MAX_TURN_RAD or tail > geo_tol) and (
                 pc.t1 - pc.t0
             ) > 1e-12:
                 mid = 0.5 * (pc.t0 + pc.t1)

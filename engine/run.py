@@ -22,11 +22,11 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .adapt import AccuracyWarning, SolvePass, refine_until_accurate
+from .adapt import CALIBRATED_MAX_WAVELENGTHS, AccuracyWarning, SolvePass, refine_until_accurate
 from .compression import CompressedSystem
 from .fields import cross_sections, far_field, far_field_each, incident_field, surface_absorption
 from .formulations import formulation_for
-from .mesh import BoundaryContour, PanelMesh, build_panels
+from .mesh import LENGTH_SLACK, BoundaryContour, PanelMesh, build_panels
 from .plan import AutoSolver, SystemPlan, plan_system
 from .problem import NearFieldRequest, Problem
 from .rcip_system import coarse_corner_mesh
@@ -42,8 +42,8 @@ from .solve import (
 from .system import BoundarySystem, DiscreteSystem, Region
 
 __all__ = [
-    "METHOD", "SURFACE_LEVELS", "assemble_result", "default_solver", "panel_wavelengths", "plan_problem",
-    "solve_frequency", "solve_problem",
+    "METHOD", "PANEL_DEFAULT", "PANEL_RULE", "SURFACE_LEVELS", "assemble_result", "default_solver",
+    "panel_wavelengths", "plan_problem", "solve_frequency", "solve_problem",
 ]
 
 #: Refined levels on which the surface files show the density next to a compressed
@@ -76,17 +76,61 @@ def plan_problem(problem: Problem) -> list[tuple[float, SystemPlan]]:
     return out
 
 
-def panel_wavelengths(problem: Problem) -> float:
-    """Longest panel in wavelengths: the problem's setting, or the measured default.
+#: The a-priori panel rule (``panel_wavelengths``) by boundary kind: the
+#: factor ``c``, the power ``s`` of the number of panels (the Dirichlet
+#: estimate falls like one over the root of the number of panels, see
+#: ``adapt.CALIBRATION``) and the orders ``d`` lost to derivatives of the
+#: density (Maue's form of the hypersingular operator of the Neumann kind
+#: differentiates it: its error falls like L^14, not L^16, with 16 nodes).
+#: With these the first mesh of a smooth PEC body lands near the requested
+#: tolerance and the estimate accepts it (circles at ka = 50 and 500 against
+#: the series of Balanis ch. 11, a 2:1 ellipse against a finer run;
+#: benchmarks/bench_mesh_guess.py).
+PANEL_RULE: dict[str, tuple[float, float, int]] = {"dirichlet": (1.15, 0.5, 0), "neumann": (1.204, 0.0, 2)}
+#: Measured defaults of the other kinds, in wavelengths: impedance surfaces
+#: (whose equation differentiates the density) need half a wavelength for 1e-8.
+PANEL_DEFAULT = {"impedance": 0.5, "penetrable": 1.0}
 
-    With 16 nodes, panels of one wavelength reach 1e-10 on smooth PEC
-    bodies; impedance surfaces (whose equation differentiates the density)
-    need half that for 1e-8 (measured against the circle's series).
+
+def panel_wavelengths(problem: Problem, frequency_hz: float | None = None) -> float:
+    """Longest panel in wavelengths: the problem's setting, or the a-priori rule.
+
+    On a panel of ``L`` wavelengths the density varies like
+    ``exp(j pi L t)`` in the panel parameter ``t``, whose Legendre
+    coefficient of degree ``p`` is about ``(e pi L / (2 p))^p`` (the
+    large-order form ``J_p(x) ~ (e x / (2 p))^p / sqrt(2 pi p)``, DLMF
+    10.19.1, from memory). Hence the rule
+    ``L = c (2 p / (e pi)) (tolerance n^s)^(1 / (p - d))`` with ``c``, ``s``
+    and ``d`` calibrated per boundary kind (``PANEL_RULE``) and ``n`` the
+    number of panels it gives on the scene at ``frequency_hz`` (the first
+    frequency when not given), never longer than the meshes the estimate
+    is calibrated on (``adapt.CALIBRATED_MAX_WAVELENGTHS``). Impedance and
+    penetrable boundaries keep their measured defaults (``PANEL_DEFAULT``);
+    a scene takes the shortest panels any of its bodies asks for.
     """
-    if problem.solver.max_panel_wavelengths is not None:
-        return problem.solver.max_panel_wavelengths
-    has_impedance = any(s.boundary == "impedance" for s in problem.scatterers)
-    return 0.5 if has_impedance else 1.0
+    s = problem.solver
+    if s.max_panel_wavelengths is not None:
+        return s.max_panel_wavelengths
+    p = s.nodes_per_panel
+    freq = problem.frequencies_hz[0] if frequency_hz is None else frequency_hz
+    wavelengths = sum(body.body.perimeter() for body in problem.scatterers) / problem.wavelength(freq)
+    scale = 2.0 * p / (math.e * math.pi)
+    longest = CALIBRATED_MAX_WAVELENGTHS / LENGTH_SLACK
+    lengths = []
+    for body in problem.scatterers:
+        kind = body.boundary
+        if kind in PANEL_DEFAULT:
+            lengths.append(PANEL_DEFAULT[kind])
+            continue
+        neumann = kind == "hard" or (kind == "pec" and problem.field == "te")
+        c, power, lost = PANEL_RULE["neumann" if neumann else "dirichlet"]
+        order = max(p - lost, 1)
+        length = c * scale * s.tolerance ** (1.0 / order)
+        for _ in range(2):  # the number of panels depends on their length: two fixed-point steps
+            n = max(1.0, wavelengths / length)
+            length = c * scale * (s.tolerance * n**power) ** (1.0 / order)
+        lengths.append(min(length, longest))
+    return min(lengths, default=1.0)
 
 
 def solve_problem(
@@ -253,7 +297,7 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
     if scene.compressed:
         mesh, zones = coarse_corner_mesh(
             boundaries, p=problem.solver.nodes_per_panel, tolerance=tol,
-            max_panel_wavelengths=panel_wavelengths(problem),
+            max_panel_wavelengths=panel_wavelengths(problem, freq),
         )
         mesh.corner_zones = tuple(zones)
         return mesh, []
@@ -263,7 +307,7 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
             boundaries,
             p=problem.solver.nodes_per_panel,
             tolerance=tol,
-            max_panel_wavelengths=panel_wavelengths(problem),
+            max_panel_wavelengths=panel_wavelengths(problem, freq),
             corner_tolerance=corner_tol,
         )
         if fits(mesh) or corner_tol >= 1e-2 or not mesh.corner_at_start.any():
@@ -280,6 +324,31 @@ def _first_mesh(scene: _Scene, fits: Callable[[PanelMesh], bool]) -> tuple[Panel
         warnings.warn(msg, AccuracyWarning, stacklevel=4)
         notes.append(msg)
     return mesh, notes
+
+
+#: A uniform remesh aims at this share of the tolerance.
+REMESH_TARGET = 0.5
+
+
+def _uniform_remesh(scene: _Scene) -> Callable[[PanelMesh, float], PanelMesh | None]:
+    """Remeshing with shorter panels, sized by the law of ``panel_wavelengths``.
+
+    An estimate ``ratio`` times the tolerance asks for panels
+    ``(REMESH_TARGET / ratio)^(1/p)`` times as long (at least 5 % shorter).
+    """
+    s = scene.problem.solver
+    state = {"mpw": panel_wavelengths(scene.problem, scene.frequency_hz)}
+
+    def remesh(mesh: PanelMesh, ratio: float) -> PanelMesh | None:
+        shrink = min(0.95, (REMESH_TARGET / max(ratio, 1e-300)) ** (1.0 / s.nodes_per_panel))
+        mpw = state["mpw"] * shrink
+        finer = build_panels(scene.boundaries(), p=s.nodes_per_panel, tolerance=s.tolerance, max_panel_wavelengths=mpw)
+        if finer.n_nodes <= mesh.n_nodes:
+            return None
+        state["mpw"] = mpw
+        return finer
+
+    return remesh
 
 
 def _solve_frequency(
@@ -328,6 +397,7 @@ def _solve_frequency(
         fits=fits,
         where=f"at {freq:.6g} Hz",
         progress=progress,
+        remesh=None if scene.compressed else _uniform_remesh(scene),
     )
     mesh = adaptive.mesh
     solution = adaptive.last.solution
