@@ -62,6 +62,7 @@ from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
 from .compression import CompressedSystem
 from .kernels import kernel_matrices
 from .mesh import PanelMesh
+from .multipole import FMM_ERRORS, fmm_precision, fmm_sums
 from .nearfield import serial_numba
 from .operators import near_corrections, near_pairs, self_panel_blocks
 from .quadrature import gauss_legendre, interpolation_matrix, near_weights
@@ -83,10 +84,6 @@ ComplexArray = NDArray[np.complex128]
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.int64]
 
-#: pyfmmlib precision flag and the relative error of its sums measured here
-#: (3000 points on an ellipse, k = 200, charges and dipoles, against direct
-#: summation): 1.7e-6, 1.2e-7, 1.2e-10, 3.1e-14, 9e-16; kept with a margin.
-FMM_ERRORS: tuple[tuple[int, float], ...] = ((0, 1e-5), (1, 1e-6), (2, 1e-9), (3, 1e-13), (4, 1e-15))
 #: GMRES stops when the relative residual is below this share of the tolerance.
 RESIDUAL_SHARE = 0.05
 #: Arnoldi steps per cycle before a restart (each cycle is recycled).
@@ -99,42 +96,6 @@ RECYCLE_MEMORY_SHARE = 0.25
 
 class FastSolverError(SectionwaveError):
     """The fast solver failed (FMM error, or GMRES did not converge)."""
-
-
-def fmm_precision(relative_error: float) -> int:
-    """The cheapest pyfmmlib precision flag whose error is below ``relative_error``."""
-    for flag, err in FMM_ERRORS:
-        if err <= relative_error:
-            return flag
-    return FMM_ERRORS[-1][0]
-
-
-def fmm_sums(
-    points: FloatArray, normals: FloatArray, k: complex, charge: ComplexArray | None,
-    dipole: ComplexArray | None, precision: int, gradient: bool,
-) -> tuple[ComplexArray, ComplexArray | None]:
-    """``sum_j G(x_i, y_j) q_j + dG/dn_y(x_i, y_j) d_j`` over ``j != i`` at every point, and its gradient.
-
-    ``points`` and ``normals`` are ``(2, n)``; returns the potential ``(n,)``
-    and, with ``gradient``, its gradient ``(2, n)`` in our convention.
-    """
-    import pyfmmlib
-
-    n = points.shape[1]
-    zero = np.zeros(n, dtype=complex)
-    out = pyfmmlib.hfmm2dparttarg(
-        iprec=precision, zk=complex(np.conj(k)), source=points,
-        ifcharge=int(charge is not None), charge=zero if charge is None else np.conj(charge),
-        ifdipole=int(dipole is not None), dipstr=zero if dipole is None else np.conj(dipole),
-        dipvec=normals, ifpot=1, iffld=int(gradient), ifhess=0,
-        ntarget=0, target=np.zeros((2, 0)), ifpottarg=0, pottarg=np.zeros(1, dtype=complex),
-        iffldtarg=0, fldtarg=np.zeros((2, 1), dtype=complex), ifhesstarg=0,
-        hesstarg=np.zeros((3, 1), dtype=complex),
-    )
-    ier, pot, fld = out[0], out[1], out[2]
-    if ier != 0:
-        raise FastSolverError(f"the fast multipole method failed (code {ier}) on {n} points")
-    return np.conj(pot), (np.conj(fld) if gradient else None)
 
 
 def hypersingular_kernel(

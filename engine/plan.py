@@ -32,6 +32,7 @@ import numpy as np
 
 from .compression import CompressedSystem
 from .fast import CYCLE_LENGTH, RECYCLE_MEMORY_SHARE, FastMultipole, near_pattern_size
+from .multipole import fmm_seconds
 from .solve import (
     PLAN_MARGIN,
     DenseLU,
@@ -56,10 +57,6 @@ Method = Literal["auto", "dense", "fast"]
 
 #: Seconds per matrix entry and operator of dense assembly (measured: N = 4000, TM and TE).
 DENSE_ENTRY_S = 1.4e-8
-#: FMM seconds per point, and per (k D)^2 (pyfmmlib, two cores; measured 20 000 and
-#: 100 000 points at k D = 200, 2000 and 10 000).
-FMM_POINT_S = 1.7e-5
-FMM_KD2_S = 5.5e-8
 #: Near-pattern seconds per entry (assembly of the sparse corrections, all four operators).
 NEAR_ENTRY_S = 2.0e-6
 #: Bytes per near-pattern entry at the peak of the fast set-up (indices, dense-path and plain
@@ -171,7 +168,7 @@ def fast_memory_bytes(system: DiscreteSystem, n_rhs: int = 1) -> int:
 def fast_cost(system: DiscreteSystem, n_rhs: int = 1) -> MethodCost:
     """GMRES with FMM products: time from the iterations, the FMM model and the near pattern."""
     regions = _near_entries(system)
-    fmm = sum(FMM_POINT_S * m + FMM_KD2_S * kd * kd for m, _, kd in regions)
+    fmm = sum(fmm_seconds(m, kd) for m, _, kd in regions)
     near = sum(entries for _, entries, _ in regions)
     iterations = _iterations(system, n_rhs)
     n = system.n_unknowns

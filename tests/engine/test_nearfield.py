@@ -246,3 +246,17 @@ def test_bad_shapes_are_refused() -> None:
     with pytest.raises(ValueError):
         scattered_field(mesh, k, u, psi, np.zeros((1, 2)) + 3.0, upsample=0)
     assert scattered_field(mesh, k, u, psi, np.zeros((0, 2))).shape == (0, 1)
+
+
+@pytest.mark.parametrize("kind", ["tm", "te"])
+def test_fast_multipole_far_part_matches_series(kind: str, monkeypatch) -> None:
+    """Large maps sum the plain part by the FMM: forced here, same accuracy against the series."""
+    import sectionwave.engine.nearfield as nf
+
+    mesh, k, u, psi = solved_circle(10.0, kind)
+    pts = np.vstack([ring(k, d) for d in (1e-3, 0.1, 3.0)])
+    direct = scattered_field(mesh, k, u, psi, pts)[:, 0]
+    monkeypatch.setattr(nf, "FMM_WORTH", 0.0)
+    fast = scattered_field(mesh, k, u, psi, pts)[:, 0]
+    assert np.max(np.abs(fast - direct)) < 1e-11
+    assert np.max(np.abs(fast - series_scattered(k, pts, kind))) < 1e-6, SERIES
