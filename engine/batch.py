@@ -38,7 +38,7 @@ from .case import Case
 from .export.options import OutputOptions
 from .export.partial import SweepFolder, SweepMismatchError, case_hash, sweep_folder_for
 from .results import FrequencySolution, RunResult
-from .sweep import Executor, StopRequest, SweepOutcome, solve_sweep
+from .sweep import Executor, InProcess, StopRequest, SweepOutcome, solve_sweep
 
 __all__ = ["BatchError", "BatchOptions", "BatchOutcome", "case_digest", "run_case", "stop_on_signals"]
 
@@ -256,10 +256,14 @@ def _solve_field(
     frequencies = [float(f) for f in problem.frequencies_hz]
     count = [0]
 
+    in_process = ex is None
+    if in_process:  # lines as each frequency starts, and the engine's refinement lines
+        ex = InProcess(None if progress is None else (lambda m: progress(label + m)))
+
     def solved(solution: FrequencySolution) -> None:
         folder.save(solution)
         count[0] += 1
-        if progress is not None:
+        if progress is not None and not in_process:
             total = "" if case.adaptive is not None else f" ({count[0]}/{len(frequencies)})"
             progress(f"{label}solved {solution.frequency_hz:.6g} Hz{total}")
 

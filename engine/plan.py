@@ -30,17 +30,11 @@ from typing import Literal
 
 import numpy as np
 
+from . import solve as _solve
 from .compression import CompressedSystem
 from .fast import CYCLE_LENGTH, RECYCLE_MEMORY_SHARE, FastMultipole, near_pattern_size
 from .multipole import fmm_seconds
-from .solve import (
-    PLAN_MARGIN,
-    DenseLU,
-    PreparedSolver,
-    ProblemTooLargeError,
-    available_memory_bytes,
-    fits_in_memory,
-)
+from .solve import PLAN_MARGIN, DenseLU, PreparedSolver, ProblemTooLargeError
 from .system import BoundarySystem, DiscreteSystem
 
 __all__ = [
@@ -126,7 +120,7 @@ def dense_cost(system: DiscreteSystem, n_rhs: int = 1) -> MethodCost:
     ops = max(system.dense_peak_matrices(), 1.0)
     lu_s = REFERENCE_LU_S * (n / 1000.0) ** 3
     seconds = machine_factor() * (lu_s + DENSE_ENTRY_S * ops * n * n + 4e-9 * n * n * n_rhs)
-    return MethodCost("dense", memory, seconds, fits_in_memory(memory))
+    return MethodCost("dense", memory, seconds, _solve.fits_in_memory(memory))
 
 
 def _near_entries(system: DiscreteSystem) -> list[tuple[int, int, float]]:
@@ -160,7 +154,8 @@ def fast_memory_bytes(system: DiscreteSystem, n_rhs: int = 1) -> int:
     """
     n = system.n_unknowns
     near = sum(entries for _, entries, _ in _near_entries(system))
-    vectors = min(_iterations(system, n_rhs), RECYCLE_MEMORY_SHARE * available_memory_bytes() / (32 * max(n, 1)))
+    budget = RECYCLE_MEMORY_SHARE * _solve.available_memory_bytes() / (32 * max(n, 1))
+    vectors = min(_iterations(system, n_rhs), budget)
     total = NEAR_ENTRY_BYTES * near + FAST_UNKNOWN_BYTES * n + 32 * n * vectors
     return int(PLAN_MARGIN * total)
 
@@ -175,7 +170,7 @@ def fast_cost(system: DiscreteSystem, n_rhs: int = 1) -> MethodCost:
     arnoldi = 16e-9 * n * iterations * min(iterations, CYCLE_LENGTH)
     seconds = machine_factor() * (iterations * fmm + NEAR_ENTRY_S * near + arnoldi)
     memory = fast_memory_bytes(system, n_rhs)
-    return MethodCost("fast", memory, seconds, fits_in_memory(memory))
+    return MethodCost("fast", memory, seconds, _solve.fits_in_memory(memory))
 
 
 def plan_system(system: DiscreteSystem, method: Method = "auto", n_rhs: int = 1) -> SystemPlan:
@@ -210,6 +205,8 @@ class AutoSolver:
     def memory_bytes(self, system: DiscreteSystem) -> int:
         plan = plan_system(system, self.method, self.n_rhs)
         if plan.chosen is None:
+            if self.method != "auto":
+                return plan.cost(self.method).memory_bytes
             return min(c.memory_bytes for c in plan.costs)
         return plan.cost(plan.chosen).memory_bytes
 
@@ -220,7 +217,7 @@ class AutoSolver:
             raise ProblemTooLargeError(
                 f"{system.n_unknowns} unknowns fit neither method: dense LU needs about "
                 f"{d.memory_bytes / 2**30:.1f} GiB, the fast solver about {f.memory_bytes / 2**30:.1f} GiB, "
-                f"and {available_memory_bytes() / 2**30:.1f} GiB are available; lower the frequency, "
+                f"and {_solve.available_memory_bytes() / 2**30:.1f} GiB are available; lower the frequency, "
                 "loosen the tolerance, or split the scene"
             )
         if plan.chosen == "dense":

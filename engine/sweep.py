@@ -69,14 +69,27 @@ class InProcess:
 
     description = "in-process"
 
+    def __init__(self, progress: Callable[[str], None] | None = None) -> None:
+        self.progress = progress
+
     def solve(
         self, problem: Problem, frequencies_hz: Sequence[float], stop: StopRequest
     ) -> Iterator[FrequencySolution]:
-        """Yield the solution of each frequency in turn until ``stop`` is set."""
-        for freq in frequencies_hz:
+        """Yield the solution of each frequency in turn until ``stop`` is set.
+
+        With ``progress``, a line as each frequency starts (with the time
+        left, from the frequencies so far) and the engine's refinement lines.
+        """
+        start = time.perf_counter()
+        total = len(frequencies_hz)
+        for n, freq in enumerate(frequencies_hz):
             if stop.requested:
                 return
-            yield solve_frequency(problem, freq)
+            if self.progress is not None:
+                spent = time.perf_counter() - start
+                left = f" (about {spent / n * (total - n):.0f} s left)" if n else ""
+                self.progress(f"frequency {n + 1}/{total}: {freq:.6g} Hz{left}")
+            yield solve_frequency(problem, freq, progress=self.progress)
 
 
 @dataclass

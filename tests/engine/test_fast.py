@@ -170,9 +170,6 @@ def test_auto_picks_dense_for_small_and_fast_for_large():
 def test_neither_fits_is_refused_before_allocating(monkeypatch):
     system = _circle_system(400.0, Neumann())
     monkeypatch.setattr(solve_mod, "available_memory_bytes", lambda: 1 << 20)
-    import sectionwave.engine.plan as plan_mod
-
-    monkeypatch.setattr(plan_mod, "available_memory_bytes", lambda: 1 << 20)
     plan = plan_system(system)
     assert plan.chosen is None
     with pytest.raises(solve_mod.ProblemTooLargeError, match="fit neither method"):
