@@ -514,7 +514,8 @@ def _field_list(wave: _Reader) -> tuple[Mapping[str, Any], tuple[FieldKind, ...]
     value = wave.table.get("field")
     if not isinstance(value, list):
         return wave.table, ()
-    if not value or len(set(map(str, value))) != len(value) or not set(value) <= {"tm", "te"}:
+    names = [v for v in value if isinstance(v, str)]
+    if not value or len(names) != len(value) or len(set(names)) != len(names) or not set(names) <= {"tm", "te"}:
         raise wave.fail("field", f"a list of fields holds \"tm\" and \"te\", each once, got {value!r}")
     return {**wave.table, "field": value[0]}, tuple(cast(FieldKind, v) for v in value)
 
