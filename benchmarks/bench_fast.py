@@ -12,8 +12,10 @@ Items:
      incidence, both methods where they fit: unknowns and times (the crossover).
   4  360 monostatic angles on a body 200 wavelengths around (PEC circle TE and
      2:1 ellipse TM): time per angle against a single solve.
+  5  Crossover on PEC circles (one incidence, tolerance 1e-8, TM and TE): solve
+     time of dense LU and of the fast solver at ka = 60, 150, 300.
 
-Usage: .venv/bin/python benchmarks/bench_fast.py [--items 1,2,3,4] [--quick]
+Usage: .venv/bin/python benchmarks/bench_fast.py [--items 1,2,3,4,5] [--quick]
 """
 
 from __future__ import annotations
@@ -187,9 +189,33 @@ def item4(quick: bool) -> None:
               f"{np.mean(its[len(its) // 2:]):.1f}", flush=True)
 
 
+def item5() -> None:
+    from sectionwave.engine.fast import FastMultipole
+    from sectionwave.engine.formulations import Dirichlet, Neumann
+    from sectionwave.engine.mesh import BoundaryContour, build_panels
+    from sectionwave.engine.problem import IncidentWave
+    from sectionwave.engine.solve import DenseLU, solve_boundary
+    from sectionwave.engine.system import BoundarySystem
+    from sectionwave.importers.curves import Contour, circular_arc
+
+    incident = [IncidentWave("p", "plane", from_deg=0.0)]
+    for field in ("tm", "te"):
+        for ka in (60.0, 150.0, 300.0):
+            contour = Contour((circular_arc((0.0, 0.0), 1.0, 0.0, 2 * math.pi),))
+            mesh = build_panels([BoundaryContour(contour, 0, 2 * math.pi / ka)], tolerance=1e-8)
+            system = BoundarySystem(mesh, [Dirichlet() if field == "tm" else Neumann()], ka)
+            times = []
+            for solver in (DenseLU(), FastMultipole(1e-8)):
+                t = time.perf_counter()
+                solve_boundary(system, incident, solver=solver)
+                times.append(time.perf_counter() - t)
+            print(f"item 5: circle ka = {ka:g} {field.upper()}, N = {system.n_unknowns}: dense {times[0]:.2f} s, "
+                  f"fast {times[1]:.2f} s", flush=True)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
-    parser.add_argument("--items", default="1,2,3,4")
+    parser.add_argument("--items", default="1,2,3,4,5")
     parser.add_argument("--quick", action="store_true", help="smaller sizes")
     args = parser.parse_args()
     items = {int(i) for i in args.items.split(",")}
@@ -203,6 +229,8 @@ def main() -> None:
         item3()
     if 4 in items:
         item4(args.quick)
+    if 5 in items:
+        item5()
 
 
 if __name__ == "__main__":

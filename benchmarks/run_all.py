@@ -15,6 +15,7 @@ RUNS = [
     ["bench_startup.py"],
     ["bench_sweep.py", "--quick", "--items", "1,2"],
     ["bench_mesh_guess.py", "--quick"],
+    ["bench_fast.py", "--quick", "--items", "1,2,5"],
 ]
 
 if __name__ == "__main__":
