@@ -132,7 +132,7 @@ KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "wave": ("field", "frequency_hz", "frequency", "sound_speed_m_s", "density_kg_m3"),
     "geometry": ("file", "units", "gap_tol_m"),
     "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
-    "far_field": ("angles_deg",),
+    "far_field": ("angles_deg", "length_m"),
     "near_field": ("x_m", "y_m", "spacing_m", "count", "probes_csv", "from_deg"),
     "solver": ("tolerance", "nodes_per_panel", "max_panel_wavelengths", "max_refinements", "corners", "method"),
     "output": ("time_convention", "plots", "vtk", "surface_csv", "vtk_per_incidence", "plot_frequencies_hz",
@@ -464,6 +464,8 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     else:
         ffr.used.add("angles_deg")
         angles = np.linspace(0.0, 360.0, 721)
+    length = ffr.number("length_m", positive=True) if ffr.has("length_m") else None
+    ffr.used.add("length_m")
     ffr.finish(KNOWN_KEYS["far_field"])
     solver = _solver(_Reader(source, top.get("solver") or {}, "solver", KNOWN_KEYS["solver"]))
     if top.has("run") and not isinstance(doc["run"], Mapping):
@@ -476,7 +478,7 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         notes += tuple(audit.get("unit_notes", ()))
     output = _output(_Reader(source, top.get("output") or {}, "output", KNOWN_KEYS["output"]),
                      title, source, audit, notes)
-    output = replace(output, accept_warnings=accept)
+    output = replace(output, accept_warnings=accept, length_m=length)
     near = None
     if top.has("near_field"):
         near = _near_field(_Reader(source, top.get("near_field"), "near_field", KNOWN_KEYS["near_field"]),

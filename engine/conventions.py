@@ -19,7 +19,8 @@ from __future__ import annotations
 
 from typing import Literal
 
-__all__ = ["CONVENTION_TEXT", "DB_FLOOR", "TIME_CONVENTIONS", "TimeConvention"]
+__all__ = [
+    "FIELD_DESCRIPTION","CONVENTION_TEXT", "DB_FLOOR", "TIME_CONVENTIONS", "TimeConvention"]
 
 TimeConvention = Literal["engineering", "physics"]
 
@@ -37,4 +38,12 @@ CONVENTION_TEXT = {
     "echo_width": "sigma_2D = 2 pi |F|^2",
     "angles": "degrees, counter-clockwise from +x",
     "normals": "out of the body",
+}
+
+
+#: Every output that carries a field says in words what it is.
+FIELD_DESCRIPTION = {
+    "tm": "TM: electric field along the body's axis (u = E_z)",
+    "te": "TE: magnetic field along the body's axis (u = H_z)",
+    "acoustic": "sound: acoustic pressure (u = p)",
 }

@@ -36,9 +36,11 @@ from .problem import MU0_H_M, FieldKind, IncidentWave
 __all__ = [
     "CrossSections",
     "cross_sections",
+    "FINITE_LENGTH_VALIDITY",
     "echo_width",
     "far_field",
     "far_field_each",
+    "finite_length",
     "incident_field",
     "line_source_wave",
     "plane_wave",
@@ -125,6 +127,32 @@ def far_field_each(
     proj = rhat @ mesh.normals.T
     const = np.exp(-0.25j * np.pi) / np.sqrt(8 * np.pi * k)
     return const * np.einsum("mn,nm->m", phase, 1j * k * proj.T * u - dudn)
+
+
+#: Validity of ``finite_length``, in words for the outputs.
+FINITE_LENGTH_VALIDITY = (
+    "sigma_3D = 2 L^2 sigma_2D / lambda: a straight uniform body of length L seen broadside (incidence "
+    "and observation normal to its axis), valid for L much larger than the wavelength and than the "
+    "cross-section (Knott, Shaeffer and Tuley, Radar Cross Section, 2nd ed.); end effects and any "
+    "bending or tilt are not included; an engineering estimate"
+)
+
+
+def finite_length(echo_width_m: FloatArray, wavelength_m: float, length_m: float) -> dict[str, FloatArray]:
+    """Broadside 3D cross-section of a body ``length_m`` long from its 2D echo width.
+
+    ``sigma_3D = 2 L^2 sigma_2D / lambda`` (Knott, Shaeffer and Tuley, Radar
+    Cross Section, 2nd ed.): ``m2`` and ``dbsm`` (dB re 1 m^2); for sound,
+    the target strength ``ts_db = 10 log10(sigma_3D / (4 pi))`` dB re 1 m
+    (Urick, Principles of Underwater Sound). A rigid circular cylinder of
+    radius ``a`` at high ``ka`` has ``sigma_2D -> pi a``, so
+    ``TS -> 10 log10(a L^2 / (2 lambda))``, Urick's broadside formula.
+    """
+    sigma = 2.0 * length_m**2 * np.asarray(echo_width_m, dtype=float) / wavelength_m
+    with np.errstate(divide="ignore"):
+        dbsm = 10 * np.log10(sigma)
+        ts = 10 * np.log10(sigma / (4 * np.pi))
+    return {"m2": sigma, "dbsm": dbsm, "ts_db": ts}
 
 
 def echo_width(farfield: ComplexArray, wavelength_m: float) -> dict[str, FloatArray]:

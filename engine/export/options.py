@@ -45,6 +45,9 @@ class OutputOptions:
     field_map
         Near-field maps show ``abs`` (magnitude), ``db`` (20 log10 of it)
         or ``real`` (the field at time zero).
+    length_m
+        Length of the real, straight body: the monostatic table gains the
+        three-dimensional broadside estimate (``fields.finite_length``).
     accept_warnings
         The case accepts a run that ends with guardrail findings (the
         command line then exits 0 instead of 3).
@@ -64,3 +67,4 @@ class OutputOptions:
     plot_frequencies_hz: tuple[float, ...] | None = None
     plot_from_deg: tuple[float, ...] | None = None
     field_map: Literal["abs", "db", "real"] = "abs"
+    length_m: float | None = None

@@ -32,8 +32,8 @@ from typing import Any
 
 import numpy as np
 
-from ..conventions import CONVENTION_TEXT, DB_FLOOR, TimeConvention
-from ..fields import echo_width, surface_quantities
+from ..conventions import CONVENTION_TEXT, DB_FLOOR, FIELD_DESCRIPTION, TimeConvention
+from ..fields import FINITE_LENGTH_VALIDITY, echo_width, finite_length, surface_quantities
 from ..problem import Scatterer
 from ..results import FrequencySolution, RunResult
 from .atomic import atomic_write_text
@@ -101,18 +101,7 @@ def write_run(
             ff_rows["echo_width_m"].append(ew["m"][:, m])
             ff_rows["echo_width_db_m"].append(ew["db_m"][:, m])
             ff_rows["echo_width_db_lambda"].append(ew["db_lambda"][:, m])
-        plane = [m for m, w in enumerate(fr.incidents) if w.is_plane]
-        if plane:
-            mono = _conv(fr.monostatic[plane], conv)
-            mono_ew = echo_width(mono, fr.wavelength_m)
-            mono_rows["frequency_hz"].append(np.full(len(plane), fr.frequency_hz))
-            mono_rows["incident"].append(np.array([fr.incidents[m].name for m in plane]))
-            mono_rows["from_deg"].append(np.array([fr.incidents[m].from_deg for m in plane]))
-            mono_rows["farfield_re_sqrt_m"].append(mono.real)
-            mono_rows["farfield_im_sqrt_m"].append(mono.imag)
-            mono_rows["echo_width_m"].append(mono_ew["m"])
-            mono_rows["echo_width_db_m"].append(mono_ew["db_m"])
-            mono_rows["echo_width_db_lambda"].append(mono_ew["db_lambda"])
+        _monostatic_rows(mono_rows, fr, conv, options, result.problem.field)
         if not options.surface_csv:
             continue
         surf = fr.surface()
@@ -246,6 +235,7 @@ def summary_dict(
         },
         "inputs": {
             "field": problem.field,
+            "field_description": FIELD_DESCRIPTION[problem.field],
             "frequencies_hz": list(problem.frequencies_hz),
             "wave_speed_m_s": problem.medium.wave_speed_m_s,
             "bodies": [_body_summary(b) for b in problem.scatterers],
@@ -262,6 +252,11 @@ def summary_dict(
         "drawing_audit": options.drawing_audit,
         "notes": list(options.notes),
         "warnings": list(options.warnings),
+        "finite_length": None if options.length_m is None else {
+            "length_m": options.length_m,
+            "columns": ["target_strength_db"] if problem.field == "acoustic" else ["rcs_m2", "rcs_dbsm"],
+            "validity": FINITE_LENGTH_VALIDITY,
+        },
         "frequencies": freqs,
         "estimated_error_max": _finite(max((fr.estimated_error for fr in result.frequencies), default=math.nan)),
         "elapsed_s": result.elapsed_s,
@@ -539,6 +534,33 @@ def _write_plots(result: RunResult, out_dir: Path, options: OutputOptions, notes
     return written
 
 
+def _monostatic_rows(
+    mono_rows: dict[str, list[Any]], fr: FrequencySolution, conv: TimeConvention, options: OutputOptions,
+    field: str,
+) -> None:
+    """Append one frequency's backscatter rows (plane waves only), with the finite-length columns if asked."""
+    plane = [m for m, w in enumerate(fr.incidents) if w.is_plane]
+    if not plane:
+        return
+    mono = _conv(fr.monostatic[plane], conv)
+    mono_ew = echo_width(mono, fr.wavelength_m)
+    mono_rows["frequency_hz"].append(np.full(len(plane), fr.frequency_hz))
+    mono_rows["incident"].append(np.array([fr.incidents[m].name for m in plane]))
+    mono_rows["from_deg"].append(np.array([fr.incidents[m].from_deg for m in plane]))
+    mono_rows["farfield_re_sqrt_m"].append(mono.real)
+    mono_rows["farfield_im_sqrt_m"].append(mono.imag)
+    mono_rows["echo_width_m"].append(mono_ew["m"])
+    mono_rows["echo_width_db_m"].append(mono_ew["db_m"])
+    mono_rows["echo_width_db_lambda"].append(mono_ew["db_lambda"])
+    if options.length_m is not None:
+        three_d = finite_length(mono_ew["m"], fr.wavelength_m, options.length_m)
+        if field == "acoustic":
+            mono_rows.setdefault("target_strength_db", []).append(three_d["ts_db"])
+        else:
+            mono_rows.setdefault("rcs_m2", []).append(three_d["m2"])
+            mono_rows.setdefault("rcs_dbsm", []).append(three_d["dbsm"])
+
+
 def folder_readme(result: RunResult, options: OutputOptions, convention: TimeConvention, files: list[str]) -> str:
     """README.txt of a results folder: what every file and column holds, with units."""
     field, symbol = _FIELD_WORDS[result.problem.field]
@@ -548,7 +570,7 @@ def folder_readme(result: RunResult, options: OutputOptions, convention: TimeCon
     lines = [
         f"sectionwave results: {options.title}",
         f"case: {options.case}",
-        f"field: {field} (u = {symbol}); time factor {time_factor}",
+        f"field: {FIELD_DESCRIPTION[result.problem.field]}; time factor {time_factor}",
         "",
         CAUTION,
         "",
@@ -564,7 +586,11 @@ def folder_readme(result: RunResult, options: OutputOptions, convention: TimeCon
         "                 u_scat ~ F exp(-j k r) / sqrt(r), so it is in sqrt(m) per unit incident amplitude;",
         "                 echo width = 2 pi |F|^2 (m).",
         "monostatic.csv   frequency_hz, incident, from_deg, then the same far-field and echo-width columns at",
-        "                 the backscatter direction (plane waves only).",
+        "                 the backscatter direction (plane waves only)"
+        + (f"; with [far_field] length_m = {options.length_m:g}: "
+           + ("target_strength_db (dB re 1 m)" if result.problem.field == "acoustic" else "rcs_m2, rcs_dbsm (dB re 1 m^2)")
+           + f", the broadside estimate for that length ({FINITE_LENGTH_VALIDITY})" if options.length_m else "")
+        + ".",
         "surface.csv      frequency_hz, incident, from_deg, body, contour, x_m, y_m, normal_x, normal_y (unit",
         "                 outward normal), arc_weight_m (quadrature weight), u_re, u_im (total field on the",
         "                 boundary), dudn_re_per_m, dudn_im_per_m (its outward normal derivative) and the",
