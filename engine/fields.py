@@ -37,6 +37,7 @@ __all__ = [
     "CrossSections",
     "cross_sections",
     "FINITE_LENGTH_VALIDITY",
+    "backscatter_density",
     "echo_width",
     "far_field",
     "far_field_each",
@@ -153,6 +154,25 @@ def finite_length(echo_width_m: FloatArray, wavelength_m: float, length_m: float
         dbsm = 10 * np.log10(sigma)
         ts = 10 * np.log10(sigma / (4 * np.pi))
     return {"m2": sigma, "dbsm": dbsm, "ts_db": ts}
+
+
+def backscatter_density(
+    mesh: PanelMesh, k: complex, u: ComplexArray, dudn: ComplexArray, from_deg: FloatArray
+) -> ComplexArray:
+    """Where the echo comes from: the far-field integrand at each wave's backscatter direction.
+
+    Column ``m`` holds, per unit length of boundary (sqrt(m) per m), the
+    contribution of each node to the backscattered far field of the plane
+    wave from ``from_deg[m]``: ``sum_i density[i, m] w_i`` is that wave's
+    monostatic far field (``far_field_each``), so summing it over a body or
+    a layer gives that part's share of the echo.
+    """
+    phi = np.deg2rad(np.asarray(from_deg, dtype=float))
+    rhat = np.column_stack([np.cos(phi), np.sin(phi)])
+    phase = np.exp(1j * k * (mesh.nodes @ rhat.T))  # (n, m)
+    proj = mesh.normals @ rhat.T
+    const = np.exp(-0.25j * np.pi) / np.sqrt(8 * np.pi * k)
+    return const * (1j * k * proj * phase * u - phase * dudn)
 
 
 def echo_width(farfield: ComplexArray, wavelength_m: float) -> dict[str, FloatArray]:

@@ -33,7 +33,13 @@ from typing import Any
 import numpy as np
 
 from ..conventions import CONVENTION_TEXT, DB_FLOOR, FIELD_DESCRIPTION, TimeConvention
-from ..fields import FINITE_LENGTH_VALIDITY, echo_width, finite_length, surface_quantities
+from ..fields import (
+    FINITE_LENGTH_VALIDITY,
+    backscatter_density,
+    echo_width,
+    finite_length,
+    surface_quantities,
+)
 from ..problem import Scatterer
 from ..results import FrequencySolution, RunResult
 from .atomic import atomic_write_text
@@ -59,6 +65,43 @@ def _surface(result: RunResult, fr: FrequencySolution) -> dict[str, np.ndarray]:
     problem = result.problem
     s = fr.surface()
     return surface_quantities(problem.field, fr.frequency_hz, s.u, s.dudn, problem.medium.density_kg_m3)
+
+
+def _hot_spots_apply(result: RunResult) -> bool:
+    """Backscatter densities are written for impenetrable bodies without holes (every contour outside)."""
+    return all(s.boundary != "penetrable" and not s.body.holes for s in result.problem.scatterers)
+
+
+def _backscatter(result: RunResult, fr: FrequencySolution) -> np.ndarray | None:
+    """Per node and incident wave, the backscatter density (NaN for line sources); None where not written."""
+    if not _hot_spots_apply(result):
+        return None
+    s = fr.surface()
+    from_deg = np.array([w.from_deg if w.is_plane else 0.0 for w in fr.incidents])
+    dens = backscatter_density(s.mesh, fr.wavenumber_rad_per_m, s.u, s.dudn, from_deg)
+    dens[:, [not w.is_plane for w in fr.incidents]] = np.nan
+    return dens
+
+
+def _backscatter_shares(result: RunResult, fr: FrequencySolution) -> list[dict[str, Any]] | None:
+    """Per plane wave: each body's share of the backscattered far field (Re(F_b conj F) / |F|^2, summing to 1)."""
+    dens = _backscatter(result, fr)
+    if dens is None:
+        return None
+    mesh = fr.surface().mesh
+    names = [s.name for s in result.problem.scatterers]
+    out = []
+    for m, wave in enumerate(fr.incidents):
+        if not wave.is_plane:
+            continue
+        parts = {names[b]: complex(np.sum((dens[:, m] * mesh.weights)[mesh.body_of_node == b]))
+                 for b in range(len(names))}
+        total = sum(parts.values())
+        norm = abs(total) ** 2
+        out.append({"incident": wave.name, "from_deg": wave.from_deg,
+                    "shares": {n: (float((c * np.conj(total)).real / norm) if norm > 0 else None)
+                               for n, c in parts.items()}})
+    return out
 
 
 def write_run(
@@ -107,6 +150,7 @@ def write_run(
         surf = fr.surface()
         mesh = surf.mesh
         phys = _surface(result, fr)
+        hot = _backscatter(result, fr)
         n = mesh.n_nodes
         for m, wave in enumerate(fr.incidents):
             block: dict[str, Any] = {
@@ -127,6 +171,9 @@ def write_run(
             if surf.dudn_inside is not None:
                 inner = _conv(surf.dudn_inside[:, m], conv)
                 block.update({"dudn_inside_re_per_m": inner.real, "dudn_inside_im_per_m": inner.imag})
+            if hot is not None:
+                h = _conv(hot[:, m], conv)
+                block.update({"backscatter_re_sqrt_m_per_m": h.real, "backscatter_im_sqrt_m_per_m": h.imag})
             for name, values in phys.items():
                 v = _conv(values[:, m], conv)
                 stem, unit = _split_unit(name)
@@ -201,6 +248,7 @@ def summary_dict(
             "condition_estimate": _finite(fr.condition_estimate),
             "solver_method": fr.solver_method,
             "iterations": fr.iterations,
+            "backscatter_shares": _backscatter_shares(result, fr),
             "timings_s": fr.timings_s,
             "warnings": fr.warnings,
         }
@@ -594,7 +642,10 @@ def folder_readme(result: RunResult, options: OutputOptions, convention: TimeCon
         "surface.csv      frequency_hz, incident, from_deg, body, contour, x_m, y_m, normal_x, normal_y (unit",
         "                 outward normal), arc_weight_m (quadrature weight), u_re, u_im (total field on the",
         "                 boundary), dudn_re_per_m, dudn_im_per_m (its outward normal derivative) and the",
-        "                 physical surface quantity with its unit.",
+        "                 physical surface quantity with its unit; for impenetrable bodies without holes,",
+        "                 backscatter_re/_im_sqrt_m_per_m: where the echo comes from, the far-field integrand",
+        "                 at the wave's backscatter direction (its sum times arc_weight_m is the monostatic",
+        "                 far field; summary.json gives each body's share).",
         "nearfield.csv    frequency_hz, incident, from_deg, x_m, y_m, inside (1: inside an impenetrable body,",
         "probes.csv       fields NaN), total_re/_im, scattered_re/_im, incident_re/_im (dimensionless).",
         "summary.json     inputs, settings, errors, cross sections, numerical warnings (key 'warnings').",
