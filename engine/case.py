@@ -91,6 +91,7 @@ from .problem import (
     Scatterer,
     SolverOptions,
 )
+from .products import WINDOWS, RangeProfileRequest, uniform_step
 
 __all__ = ["Case", "CaseError", "load_case", "parse_case", "refuse_absurd", "to_si"]
 
@@ -128,7 +129,8 @@ MAX_RANGE_COUNT = 1_000_000
 #: Every key each table allows (for the "known keys" list of an error).
 KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "": ("title", "wave", "geometry", "materials", "body", "incident", "far_field", "near_field", "solver",
-         "output", "run"),
+         "output", "run", "range_profile"),
+    "range_profile": ("window", "sidelobe_db", "padding"),
     "wave": ("field", "frequency_hz", "frequency", "sound_speed_m_s", "density_kg_m3"),
     "geometry": ("file", "units", "gap_tol_m"),
     "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
@@ -478,7 +480,8 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
         notes += tuple(audit.get("unit_notes", ()))
     output = _output(_Reader(source, top.get("output") or {}, "output", KNOWN_KEYS["output"]),
                      title, source, audit, notes)
-    output = replace(output, accept_warnings=accept, length_m=length)
+    output = replace(output, accept_warnings=accept, length_m=length,
+                     range_profile=_range_profile(top, source, freqs, incidents, adaptive is not None))
     near = None
     if top.has("near_field"):
         near = _near_field(_Reader(source, top.get("near_field"), "near_field", KNOWN_KEYS["near_field"]),
@@ -763,6 +766,33 @@ def _solver(sr: _Reader) -> SolverOptions:
     sr.finish(KNOWN_KEYS["solver"])
     return SolverOptions(tol, int(p), mpw, int(refinements), cast(Literal["compressed", "graded"], corners),
                          cast(Literal["auto", "dense", "fast"], method))
+
+
+def _range_profile(
+    top: _Reader, source: str, freqs: tuple[float, ...], incidents: list[IncidentWave], adaptive: bool,
+) -> RangeProfileRequest | None:
+    """``[range_profile]``: refused unless the case sweeps frequency uniformly with plane waves."""
+    if not top.has("range_profile"):
+        return None
+    doc = top.table["range_profile"]
+    if not isinstance(doc, Mapping):
+        raise top.fail("range_profile", 'must be a table: [range_profile] window = "hann"')
+    r = _Reader(source, doc, "range_profile", KNOWN_KEYS["range_profile"])
+    window = r.text("window", "hann", choices=WINDOWS)
+    sidelobe = r.number("sidelobe_db", 35.0, positive=True)
+    padding = r.get("padding", 8)
+    if isinstance(padding, bool) or not isinstance(padding, int) or not 1 <= padding <= 64:
+        raise r.fail("padding", f"must be an integer from 1 to 64, got {padding!r}")
+    r.finish(KNOWN_KEYS["range_profile"])
+    if adaptive or uniform_step(np.array(sorted(freqs))) is None:
+        raise top.fail(
+            "range_profile",
+            "needs a frequency sweep: [wave] frequency_hz = { start = ..., stop = ..., count = ... } with at "
+            f"least 4 equally spaced frequencies (the case has {len(freqs)})",
+        )
+    if not any(w.is_plane for w in incidents):
+        raise top.fail("range_profile", "needs plane waves ([[incident]] kind = \"plane\")")
+    return RangeProfileRequest(cast(Literal["hann", "rectangular", "taylor"], window), sidelobe, int(padding))
 
 
 def _output(

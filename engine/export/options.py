@@ -10,6 +10,7 @@ from dataclasses import dataclass, field
 from typing import Any, Literal
 
 from ..conventions import TimeConvention
+from ..products import RangeProfileRequest
 
 __all__ = ["OutputOptions"]
 
@@ -45,6 +46,9 @@ class OutputOptions:
     field_map
         Near-field maps show ``abs`` (magnitude), ``db`` (20 log10 of it)
         or ``real`` (the field at time zero).
+    range_profile
+        ``[range_profile]``: write down-range profiles of the monostatic
+        far field (``products.range_profile``).
     length_m
         Length of the real, straight body: the monostatic table gains the
         three-dimensional broadside estimate (``fields.finite_length``).
@@ -68,3 +72,4 @@ class OutputOptions:
     plot_from_deg: tuple[float, ...] | None = None
     field_map: Literal["abs", "db", "real"] = "abs"
     length_m: float | None = None
+    range_profile: RangeProfileRequest | None = None

@@ -34,6 +34,7 @@ __all__ = [
     "plot_echo_width_vs_frequency",
     "plot_field_map",
     "plot_mesh_preview",
+    "plot_range_profile",
 ]
 
 #: Colour map for every filled plot: perceptually uniform, readable in greyscale.
@@ -402,6 +403,20 @@ def plot_echo_width_vs_frequency(
     )
     factor, unit = _frequency_scale(frequency)
     figure, axes = _linear_axes(frequency / factor, curves, f"frequency ({unit})", unit_label)
+    return _save_curves(figure, axes, path, file_format, title, len(curves))
+
+
+def plot_range_profile(
+    path: str | os.PathLike[str],
+    range_m: ArrayLike,
+    magnitude_db: Mapping[str, ArrayLike],
+    *,
+    title: str | None = None,
+) -> Path:
+    """Plot down-range profiles (dB) against range in metres, one curve per incidence."""
+    file_format, ranges, curves = _curve_inputs(path, "range_m", range_m, magnitude_db)
+    figure, axes = _linear_axes(ranges, curves, "range (m), positive away from the radar",
+                                "dB re 1 sqrt(m) per unit amplitude")
     return _save_curves(figure, axes, path, file_format, title, len(curves))
 
 

@@ -41,6 +41,7 @@ from ..fields import (
     surface_quantities,
 )
 from ..problem import Scatterer
+from ..products import RangeProfile, range_profile
 from ..results import FrequencySolution, RunResult
 from .atomic import atomic_write_text
 from .options import OutputOptions
@@ -65,6 +66,64 @@ def _surface(result: RunResult, fr: FrequencySolution) -> dict[str, np.ndarray]:
     problem = result.problem
     s = fr.surface()
     return surface_quantities(problem.field, fr.frequency_hz, s.u, s.dudn, problem.medium.density_kg_m3)
+
+
+def _profile(result: RunResult, options: OutputOptions) -> tuple[RangeProfile, list[int]] | None:
+    """The down-range profiles of every plane wave over the run's frequencies (None: not asked for)."""
+    request = options.range_profile
+    frs = sorted(result.frequencies, key=lambda fr: fr.frequency_hz)
+    plane = [m for m, w in enumerate(result.problem.incidents) if w.is_plane]
+    if request is None or not plane or len(frs) < 4:
+        return None
+    mono = np.array([fr.monostatic[plane] for fr in frs])
+    freqs = np.array([fr.frequency_hz for fr in frs])
+    return range_profile(freqs, mono, result.problem.medium.wave_speed_m_s, request), plane
+
+
+def _write_range_profile(result: RunResult, out_dir: Path, options: OutputOptions) -> list[str]:
+    """range_profile.csv (from_deg, range_m, magnitude, magnitude_db) and its plot."""
+    found = _profile(result, options)
+    if found is None:
+        return []
+    prof, plane = found
+    waves = result.problem.incidents
+    rows: dict[str, list[Any]] = {"from_deg": [], "range_m": [], "magnitude": [], "magnitude_db": []}
+    curves = {}
+    for j, m in enumerate(plane):
+        with np.errstate(divide="ignore"):
+            db = np.maximum(20 * np.log10(prof.magnitude[:, j]), DB_FLOOR)
+        rows["from_deg"].append(np.full(prof.range_m.size, waves[m].from_deg))
+        rows["range_m"].append(prof.range_m)
+        rows["magnitude"].append(prof.magnitude[:, j])
+        rows["magnitude_db"].append(db)
+        curves[f"from_deg={waves[m].from_deg:g}"] = db
+    write_csv(out_dir / "range_profile.csv", {k: np.concatenate(v) for k, v in rows.items()})
+    written = ["range_profile.csv"]
+    if options.plots:
+        from .plots import plot_range_profile
+
+        shown = dict(list(curves.items())[:MAX_PROFILE_CURVES])
+        plot_range_profile(out_dir / "range_profile.png", prof.range_m, shown,
+                           title=f"{options.title}: down-range profile, resolution {prof.resolution_m:.3g} m")
+        written.append("range_profile.png")
+    return written
+
+
+def _range_summary(result: RunResult, options: OutputOptions) -> dict[str, Any] | None:
+    found = _profile(result, options)
+    if found is None or options.range_profile is None:
+        return None
+    prof = found[0]
+    req = options.range_profile
+    return {"window": req.window, "sidelobe_db": req.sidelobe_db if req.window == "taylor" else None,
+            "padding": req.padding, "bandwidth_hz": prof.bandwidth_hz, "resolution_m": prof.resolution_m,
+            "unambiguous_m": prof.unambiguous_m, "wave_speed_m_s": result.problem.medium.wave_speed_m_s,
+            "range": "along the look direction from the drawing origin, positive away from the radar",
+            "curves_plotted": min(MAX_PROFILE_CURVES, len(found[1]))}
+
+
+#: Curves drawn in range_profile.png (the CSV holds every incidence).
+MAX_PROFILE_CURVES = 12
 
 
 def _hot_spots_apply(result: RunResult) -> bool:
@@ -191,6 +250,7 @@ def write_run(
     if surf_rows:
         write_csv(out_dir / "surface.csv", {k: np.concatenate(v) for k, v in surf_rows.items()})
         written.append("surface.csv")
+    written += _write_range_profile(result, out_dir, options)  # nothing unless [range_profile] asks
     if options.vtk:
         written += _write_boundary_vtk(result, out_dir, conv, per_incidence=options.vtk_per_incidence)
     if any(fr.near_field is not None for fr in result.frequencies):
@@ -300,6 +360,7 @@ def summary_dict(
         "drawing_audit": options.drawing_audit,
         "notes": list(options.notes),
         "warnings": list(options.warnings),
+        "range_profile": _range_summary(result, options),
         "finite_length": None if options.length_m is None else {
             "length_m": options.length_m,
             "columns": ["target_strength_db"] if problem.field == "acoustic" else ["rcs_m2", "rcs_dbsm"],

@@ -13,6 +13,7 @@ import json
 import math
 
 import numpy as np
+import pytest
 from sectionwave.engine.cli import main
 from sectionwave.engine.export import read_csv
 
@@ -122,3 +123,70 @@ def test_backscatter_contributions_sum_to_the_monostatic_far_field(tmp_path):
     # seen from 0 deg (+x) the large circle in front returns most of the echo
     front = next(e for e in shares if e["from_deg"] == 0.0)["shares"]["front"]
     assert front > 0.8
+
+
+RODS = """
+title = "two rods"
+[wave]
+field = "tm"
+frequency_hz = { start = 8e9, stop = 12e9, count = 41 }
+[[body]]
+name = "near_rod"
+shape = { kind = "circle", radius_m = 0.002, center_m = [0.15, 0.0] }
+boundary = "pec"
+[[body]]
+name = "far_rod"
+shape = { kind = "circle", radius_m = 0.002, center_m = [-0.15, 0.0] }
+boundary = "pec"
+[[incident]]
+kind = "plane"
+from_deg = [0, 30]
+[far_field]
+angles_deg = [0]
+[range_profile]
+window = "WINDOW"
+[output]
+plots = false
+vtk = false
+surface_csv = false
+"""
+
+
+def _peaks(ranges, mag, count):
+    """The ``count`` largest local maxima, farther apart than three samples."""
+    inner = np.flatnonzero((mag[1:-1] > mag[:-2]) & (mag[1:-1] >= mag[2:])) + 1
+    best = []
+    for i in inner[np.argsort(mag[inner])[::-1]]:
+        if all(abs(i - j) > 3 for j in best):
+            best.append(i)
+        if len(best) == count:
+            break
+    return sorted(ranges[best])
+
+
+def test_two_rods_sit_at_their_ranges(tmp_path):
+    """Peaks at R = -p . (cos phi, sin phi) within one range bin; resolution c / (2 B) (standard radar practice)."""
+    for window in ("hann", "taylor"):
+        path = tmp_path / f"rods_{window}.toml"
+        path.write_text(RODS.replace("WINDOW", window))
+        out = tmp_path / window
+        assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+        table = read_csv(out / "range_profile.csv")
+        summary = json.loads((out / "summary.json").read_text())["range_profile"]
+        c = 299_792_458.0
+        assert summary["resolution_m"] == pytest.approx(c / (2 * 4e9))
+        assert summary["unambiguous_m"] == pytest.approx(c / (2 * 1e8))
+        for phi in (0.0, 30.0):
+            pick = table["from_deg"] == phi
+            look = np.array([math.cos(math.radians(phi)), math.sin(math.radians(phi))])
+            expected = sorted(-np.array([[0.15, 0.0], [-0.15, 0.0]]) @ look)
+            got = _peaks(table["range_m"][pick], table["magnitude"][pick], 2)
+            assert np.allclose(got, expected, atol=summary["resolution_m"]), (window, phi, got, expected)
+
+
+def test_range_profile_needs_a_sweep(tmp_path):
+    path = tmp_path / "one.toml"
+    path.write_text(RODS.replace("WINDOW", "hann").replace(
+        "frequency_hz = { start = 8e9, stop = 12e9, count = 41 }", "frequency_hz = 9e9"))
+    code = main(["run", str(path), "--out", str(tmp_path / "o")])
+    assert code == 2
