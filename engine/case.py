@@ -60,6 +60,7 @@ from typing import Any, Literal, cast
 
 import numpy as np
 import tomllib
+from numpy.typing import NDArray
 from sectionwave.importers.curves import (
     CONTAINS_SAMPLES,
     Body,
@@ -91,7 +92,7 @@ from .problem import (
     Scatterer,
     SolverOptions,
 )
-from .products import WINDOWS, RangeProfileRequest, uniform_step
+from .products import WINDOWS, ImageRequest, RangeProfileRequest, uniform_step
 
 __all__ = ["Case", "CaseError", "load_case", "parse_case", "refuse_absurd", "to_si"]
 
@@ -129,8 +130,9 @@ MAX_RANGE_COUNT = 1_000_000
 #: Every key each table allows (for the "known keys" list of an error).
 KNOWN_KEYS: dict[str, tuple[str, ...]] = {
     "": ("title", "wave", "geometry", "materials", "body", "incident", "far_field", "near_field", "solver",
-         "output", "run", "range_profile"),
+         "output", "run", "range_profile", "image"),
     "range_profile": ("window", "sidelobe_db", "padding"),
+    "image": ("x_m", "y_m", "spacing_m", "count", "window", "sidelobe_db", "dynamic_range_db"),
     "wave": ("field", "frequency_hz", "frequency", "sound_speed_m_s", "density_kg_m3"),
     "geometry": ("file", "units", "gap_tol_m"),
     "body": ("name", "shape", "layer", "point_m", "boundary", "impedance", "material", *MATERIAL_KEYS),
@@ -481,7 +483,8 @@ def parse_case(doc: Mapping[str, Any], *, source: str = "<case>", base_dir: Path
     output = _output(_Reader(source, top.get("output") or {}, "output", KNOWN_KEYS["output"]),
                      title, source, audit, notes)
     output = replace(output, accept_warnings=accept, length_m=length,
-                     range_profile=_range_profile(top, source, freqs, incidents, adaptive is not None))
+                     range_profile=_range_profile(top, source, freqs, incidents, adaptive is not None),
+                     image=_image(top, source, freqs, incidents))
     near = None
     if top.has("near_field"):
         near = _near_field(_Reader(source, top.get("near_field"), "near_field", KNOWN_KEYS["near_field"]),
@@ -823,33 +826,66 @@ def _output(
     )
 
 
+def _grid(r: _Reader) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """``x_m = [min, max]``, ``y_m = [min, max]`` and ``spacing_m`` or ``count = [nx, ny]``: the axes."""
+    xr, yr = r.point("x_m"), r.point("y_m")
+    for key, (lo, hi) in (("x_m", xr), ("y_m", yr)):
+        if hi <= lo:
+            raise r.fail(key, f"must be [min, max] with min < max, got {[lo, hi]}")
+    if r.has("spacing_m") == r.has("count"):
+        raise r.fail("spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]")
+    if r.has("spacing_m"):
+        h = r.number("spacing_m", positive=True)
+        sx, sy = (xr[1] - xr[0]) / h, (yr[1] - yr[0]) / h
+        if not (math.isfinite(sx) and math.isfinite(sy)) or sx * sy > 1e15:  # before int() overflows
+            raise r.fail("spacing_m", f"asks for {sx + 1:.3g} x {sy + 1:.3g} points; at most 25 million")
+        nx = int(math.floor(sx + 1e-9)) + 1
+        ny = int(math.floor(sy + 1e-9)) + 1
+    else:
+        cnt = r.get("count")
+        if not (isinstance(cnt, list) and len(cnt) == 2
+                and all(isinstance(c, int) and not isinstance(c, bool) and c >= 1 for c in cnt)):
+            raise r.fail("count", f"must be [nx, ny] positive integers, got {cnt!r}")
+        nx, ny = cnt
+    if nx * ny > 25_000_000:
+        raise r.fail("spacing_m" if r.has("spacing_m") else "count",
+                     f"asks for {nx} x {ny} points; at most 25 million")
+    return np.linspace(xr[0], xr[1], nx), np.linspace(yr[0], yr[1], ny)
+
+
+def _image(
+    top: _Reader, source: str, freqs: tuple[float, ...], incidents: list[IncidentWave]
+) -> ImageRequest | None:
+    """``[image]``: a grid like ``[near_field]``'s, window and dynamic range; the case's sweep is the aperture."""
+    if not top.has("image"):
+        return None
+    doc = top.table["image"]
+    if not isinstance(doc, Mapping):
+        raise top.fail("image", "must be a table: [image] x_m = [x0, x1], y_m = [y0, y1], spacing_m = ...")
+    r = _Reader(source, doc, "image", KNOWN_KEYS["image"])
+    x, y = _grid(r)
+    if x.size * y.size > 4_000_000:
+        raise r.fail("spacing_m" if r.has("spacing_m") else "count",
+                     f"asks for {x.size} x {y.size} image points; at most 4 million")
+    window = r.text("window", "hann", choices=WINDOWS)
+    sidelobe = r.number("sidelobe_db", 35.0, positive=True)
+    dynamic = r.number("dynamic_range_db", 40.0, positive=True)
+    r.finish(KNOWN_KEYS["image"])
+    plane = [w for w in incidents if w.is_plane]
+    if len(freqs) < 2 or len(plane) < 2:
+        raise top.fail(
+            "image",
+            f"needs a sweep over frequency and incidence angle (the case has {len(freqs)} frequencies and "
+            f"{len(plane)} plane waves): give frequency_hz = {{ start, stop, count }} and "
+            "from_deg = { start, stop, count }",
+        )
+    return ImageRequest(x, y, cast(Literal["hann", "rectangular", "taylor"], window), sidelobe, dynamic)
+
+
 def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]) -> NearFieldRequest:
     x = y = probes = None
     if r.has("x_m") or r.has("y_m"):
-        xr, yr = r.point("x_m"), r.point("y_m")
-        for key, (lo, hi) in (("x_m", xr), ("y_m", yr)):
-            if hi <= lo:
-                raise r.fail(key, f"must be [min, max] with min < max, got {[lo, hi]}")
-        if r.has("spacing_m") == r.has("count"):
-            raise r.fail("spacing_m", "give exactly one of spacing_m = number or count = [nx, ny]")
-        if r.has("spacing_m"):
-            h = r.number("spacing_m", positive=True)
-            sx, sy = (xr[1] - xr[0]) / h, (yr[1] - yr[0]) / h
-            if not (math.isfinite(sx) and math.isfinite(sy)) or sx * sy > 1e15:  # before int() overflows
-                raise r.fail("spacing_m", f"asks for {sx + 1:.3g} x {sy + 1:.3g} points; at most 25 million")
-            nx = int(math.floor(sx + 1e-9)) + 1
-            ny = int(math.floor(sy + 1e-9)) + 1
-        else:
-            cnt = r.get("count")
-            if not (isinstance(cnt, list) and len(cnt) == 2
-                    and all(isinstance(c, int) and not isinstance(c, bool) and c >= 1 for c in cnt)):
-                raise r.fail("count", f"must be [nx, ny] positive integers, got {cnt!r}")
-            nx, ny = cnt
-        if nx * ny > 25_000_000:
-            raise r.fail("spacing_m" if r.has("spacing_m") else "count",
-                         f"asks for {nx} x {ny} points; at most 25 million")
-        x = np.linspace(xr[0], xr[1], nx)
-        y = np.linspace(yr[0], yr[1], ny)
+        x, y = _grid(r)
     if r.has("probes_csv"):
         text = r.text("probes_csv")
         if "\x00" in text or not text.strip():

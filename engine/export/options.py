@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 from typing import Any, Literal
 
 from ..conventions import TimeConvention
-from ..products import RangeProfileRequest
+from ..products import ImageRequest, RangeProfileRequest
 
 __all__ = ["OutputOptions"]
 
@@ -46,6 +46,9 @@ class OutputOptions:
     field_map
         Near-field maps show ``abs`` (magnitude), ``db`` (20 log10 of it)
         or ``real`` (the field at time zero).
+    image
+        ``[image]``: back-projected image of the monostatic far field
+        (``products.back_projection``).
     range_profile
         ``[range_profile]``: write down-range profiles of the monostatic
         far field (``products.range_profile``).
@@ -73,3 +76,4 @@ class OutputOptions:
     field_map: Literal["abs", "db", "real"] = "abs"
     length_m: float | None = None
     range_profile: RangeProfileRequest | None = None
+    image: ImageRequest | None = None
