@@ -31,6 +31,7 @@ if TYPE_CHECKING:
 __all__ = [
     "plot_echo_width_cartesian",
     "plot_echo_width_polar",
+    "plot_boundary_values",
     "plot_echo_width_vs_frequency",
     "plot_field_map",
     "plot_mesh_preview",
@@ -141,13 +142,14 @@ def _linear_axes(
     curves: Mapping[str, NDArray[np.float64]],
     xlabel: str,
     unit_label: str,
+    ylabel: str | None = None,
 ) -> tuple[Figure, Axes]:
-    """Figure with echo-width ``curves`` drawn against ``x`` on gridded linear axes."""
+    """Figure with ``curves`` (echo width unless ``ylabel`` says otherwise) against ``x`` on linear axes."""
     figure = _new_figure((7.0, 4.2))
     axes = figure.add_subplot()
     _draw_curves(axes, x, curves)
     axes.set_xlabel(xlabel)
-    axes.set_ylabel(f"echo width ({unit_label})")
+    axes.set_ylabel(ylabel or f"echo width ({unit_label})")
     axes.grid(True, color="0.85")
     return figure, axes
 
@@ -332,8 +334,9 @@ def plot_echo_width_cartesian(
     *,
     title: str | None = None,
     unit_label: str = "dB m",
+    ylabel: str | None = None,
 ) -> Path:
-    """Plot echo width against observation angle on linear axes.
+    """Plot echo width (or, with ``ylabel``, another quantity in dB) against angle on linear axes.
 
     Parameters
     ----------
@@ -354,7 +357,7 @@ def plot_echo_width_cartesian(
         The destination.
     """
     file_format, angles, curves = _curve_inputs(path, "angles_deg", angles_deg, echo_width_db)
-    figure, axes = _linear_axes(angles, curves, "observation angle (deg)", unit_label)
+    figure, axes = _linear_axes(angles, curves, "observation angle (deg)", unit_label, ylabel)
     axes.set_xlim(float(angles.min()), float(angles.max()))
     span = float(angles.max() - angles.min())
     if span >= 90.0:
@@ -415,9 +418,44 @@ def plot_range_profile(
 ) -> Path:
     """Plot down-range profiles (dB) against range in metres, one curve per incidence."""
     file_format, ranges, curves = _curve_inputs(path, "range_m", range_m, magnitude_db)
-    figure, axes = _linear_axes(ranges, curves, "range (m), positive away from the radar",
-                                "dB re 1 sqrt(m) per unit amplitude")
+    figure, axes = _linear_axes(ranges, curves, "range (m), positive away from the radar", "",
+                                ylabel="profile magnitude (dB re 1 sqrt(m), per unit amplitude)")
     return _save_curves(figure, axes, path, file_format, title, len(curves))
+
+
+def plot_boundary_values(
+    path: str | os.PathLike[str],
+    nodes: ArrayLike,
+    values_db: ArrayLike,
+    outlines: Sequence[ArrayLike] = (),
+    *,
+    title: str | None = None,
+    colorbar_label: str = "dB",
+    db_range: float = 40.0,
+) -> Path:
+    """Plot a quantity in dB along the boundary: nodes coloured by value over the body outlines."""
+    file_format = _format_for(path)
+    pts = np.asarray(nodes, dtype=np.float64)
+    vals = np.asarray(values_db, dtype=np.float64)
+    if pts.ndim != 2 or pts.shape[1] != 2 or vals.shape != (pts.shape[0],):
+        raise ExportError(f"{str(path)!r}: nodes must be (n, 2) and values (n,), got {pts.shape} and {vals.shape}")
+    finite = vals[np.isfinite(vals)]
+    top = float(finite.max()) if finite.size else 0.0
+    figure = _new_figure((6.4, 5.2))
+    axes = figure.add_subplot()
+    for outline in outlines:
+        ring = np.asarray(outline, dtype=np.float64)
+        closed = np.vstack([ring, ring[:1]])
+        axes.plot(closed[:, 0], closed[:, 1], color="0.6", linewidth=0.8)
+    dots = axes.scatter(pts[:, 0], pts[:, 1], c=np.clip(vals, top - db_range, top), s=6, cmap=COLORMAP,
+                        vmin=top - db_range, vmax=top)
+    axes.set_aspect("equal")
+    axes.set_xlabel("x (m)")
+    axes.set_ylabel("y (m)")
+    if title:
+        axes.set_title(title)
+    figure.colorbar(dots, ax=axes, label=colorbar_label, shrink=0.85)
+    return _save(figure, path, file_format)
 
 
 def plot_mesh_preview(

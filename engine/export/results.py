@@ -179,6 +179,49 @@ def _image_summary(result: RunResult, options: OutputOptions) -> dict[str, Any] 
 MAX_PROFILE_CURVES = 12
 
 
+def _finite_length_plot(
+    result: RunResult, out_dir: Path, options: OutputOptions, plane: list[int], head: str
+) -> list[str]:
+    """rcs.png (dBsm) or target_strength.png (dB re 1 m) against from_deg, with ``[far_field] length_m``."""
+    from .plots import plot_echo_width_cartesian
+
+    if options.length_m is None:
+        return []
+    sound = result.problem.field == "acoustic"
+    curves = {}
+    for fr in _spread(list(result.frequencies), MAX_CURVES):
+        three_d = finite_length(echo_width(fr.monostatic[plane], fr.wavelength_m)["m"], fr.wavelength_m,
+                                options.length_m)
+        curves[frequency_text(fr.frequency_hz)] = np.maximum(three_d["ts_db" if sound else "dbsm"], DB_FLOOR)
+    angles = np.array([result.problem.incidents[m].from_deg for m in plane])
+    name = "target_strength.png" if sound else "rcs.png"
+    what = "target strength (dB re 1 m)" if sound else "radar cross-section (dBsm)"
+    plot_echo_width_cartesian(out_dir / name, angles, curves, ylabel=what,
+                              title=f"{head}{'TS' if sound else 'RCS'}, {options.length_m:g} m long, broadside, "
+                                    f"{_FIELD_WORDS[result.problem.field][0]}")
+    return [name]
+
+
+def _backscatter_plot(result: RunResult, out_dir: Path, wsel: list[int], head: str) -> list[str]:
+    """backscatter_map.png: where the echo of one plane wave comes from, along the outline (last frequency)."""
+    from .plots import plot_boundary_values
+
+    fr = result.frequencies[-1]
+    dens = _backscatter(result, fr)
+    plane = [m for m in wsel if fr.incidents[m].is_plane]
+    if dens is None or not plane:
+        return []
+    m = plane[0]
+    with np.errstate(divide="ignore"):
+        db = 20 * np.log10(np.abs(dens[:, m]))
+    outlines = [s.body.outer.sample(256) for s in result.problem.scatterers]
+    plot_boundary_values(out_dir / "backscatter_map.png", fr.surface().mesh.nodes, db, outlines,
+                         colorbar_label="|backscatter integrand| (dB re 1 sqrt(m)/m)",
+                         title=f"{head}where the echo comes from, {frequency_text(fr.frequency_hz)}, "
+                               f"{_wave_text(fr.incidents[m])}")
+    return ["backscatter_map.png"]
+
+
 def _hot_spots_apply(result: RunResult) -> bool:
     """Backscatter densities are written for impenetrable bodies without holes (every contour outside)."""
     return all(s.boundary != "penetrable" and not s.body.holes for s in result.problem.scatterers)
@@ -470,6 +513,7 @@ def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention, 
         surf = fr.surface()
         mesh = surf.mesh
         phys = _surface(result, fr)
+        hot = _backscatter(result, fr)
         groups = [[m] for m in range(len(fr.incidents))] if per_incidence else [list(range(len(fr.incidents)))]
         for group in groups:
             fields: dict[str, np.ndarray] = {}
@@ -480,6 +524,8 @@ def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention, 
                 if surf.dudn_inside is not None:
                     fields[f"dudn_inside{tag}"] = surf.dudn_inside[:, m]
                 fields.update({f"{k}{tag}": v[:, m] for k, v in phys.items()})
+                if hot is not None and fr.incidents[m].is_plane:
+                    fields[f"backscatter{tag}"] = hot[:, m]  # where the echo comes from
             if per_incidence:
                 wave = fr.incidents[group[0]]
                 name, from_deg = f"boundary_f{nf:03d}_i{group[0]:03d}.vtu", wave.from_deg
@@ -652,7 +698,7 @@ def _write_plots(result: RunResult, out_dir: Path, options: OutputOptions, notes
     written = []
     frs = result.frequencies
     fr0 = frs[0]
-    field, _ = _FIELD_WORDS[result.problem.field]
+    field = FIELD_DESCRIPTION[result.problem.field].split(" (u =")[0]  # the field in words
     head = f"{options.title}: " if options.title and options.title != "untitled" else ""
     fsel, wsel = _pick_for_plots(result, options)
     note = _selection_note(result, fsel, wsel)
@@ -679,6 +725,8 @@ def _write_plots(result: RunResult, out_dir: Path, options: OutputOptions, notes
         plot_echo_width_polar(out_dir / "monostatic_polar.png", angles, mono, title=title)
         plot_echo_width_cartesian(out_dir / "monostatic.png", angles, mono, title=title)
         written += ["monostatic_polar.png", "monostatic.png"]
+        written += _finite_length_plot(result, out_dir, options, plane, head)
+    written += _backscatter_plot(result, out_dir, wsel, head)
     if len(frs) > 1 and plane:
         curves = {}
         for m in [m for m in wsel if m in plane] or plane[:1]:

@@ -248,3 +248,15 @@ def test_image_of_three_rods(tmp_path):
     for p in found:
         assert np.min(np.hypot(*(rods - p).T)) < 0.5 * cell, (p, cell)
     assert (out / "image.vtu").exists()
+
+
+def test_plots_of_the_products(tmp_path):
+    text = HOT.replace("plots = false", "plots = true").replace(
+        "[output]", "[far_field]\nangles_deg = [0, 90]\nlength_m = 3.0\n[output]").replace(
+        "from_deg = [0, 90]", "from_deg = { start = 0, stop = 90, count = 4 }")
+    path = tmp_path / "hot.toml"
+    path.write_text(text)
+    out = tmp_path / "out"
+    assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+    for name in ("rcs.png", "backscatter_map.png", "monostatic.png"):
+        assert (out / name).stat().st_size > 1000, name
