@@ -26,17 +26,15 @@ import logging
 import random
 import re
 import shutil
-import signal
 import sys
 import tempfile
-import time
-import traceback
 import warnings
+from collections.abc import Callable
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests" / "importers"))
-from fuzz_drawings import _alarm, _Hang  # noqa: E402 - the drawing fuzzer's hang guard, shared
+from fuzz_drawings import fuzz_rounds  # noqa: E402 - the drawing fuzzer's round loop, shared
 
 SEED_DIRS = [ROOT / "samples", ROOT / "tests" / "data" / "bad"]
 VALUES = [b"nan", b"inf", b"-inf", b"0", b"-0", b"-1", b"1e308", b"-1e308", b"1e-320", b"1e400",
@@ -108,10 +106,6 @@ def run(minutes: float, seed: int, out: Path, slow: float, hang: float) -> int:
     blobs = _seeds()
     rng = random.Random(seed)
     out.mkdir(parents=True, exist_ok=True)
-    signal.signal(signal.SIGALRM, _alarm)
-    deadline = time.monotonic() + 60.0 * minutes
-    rounds = findings = 0
-    worst = (0.0, "")
     with tempfile.TemporaryDirectory() as tmp:
         # the seeds' drawings and probe files, so that relative paths resolve
         for d in SEED_DIRS + [ROOT / "samples" / "drawings"]:
@@ -123,35 +117,13 @@ def run(minutes: float, seed: int, out: Path, slow: float, hang: float) -> int:
             if p.suffix.lower() in {".dxf", ".svg"}:
                 shutil.copy(p, Path(tmp) / "drawings" / p.name)
         path = Path(tmp) / "case.toml"
-        while time.monotonic() < deadline:
-            src, data = rng.choice(blobs)
-            for _ in range(rng.randrange(1, 4)):
-                data = mutate(data, rng)
+
+        def attempt(src: Path, data: bytes, rng: random.Random) -> tuple[Callable[[], object], str, str]:
             path.write_bytes(data)
-            problem = ""
-            t0 = time.perf_counter()
-            signal.setitimer(signal.ITIMER_REAL, hang)
-            try:
-                load_case(path)
-            except SectionwaveError:
-                pass
-            except _Hang:
-                problem = f"hang (stopped after {hang:g} s)"
-            except Exception:  # noqa: BLE001 - the point of fuzzing
-                problem = traceback.format_exc()
-            finally:
-                signal.setitimer(signal.ITIMER_REAL, 0)
-            dt = time.perf_counter() - t0
-            rounds += 1
-            if dt > worst[0]:
-                worst = (dt, src.name)
-            if not problem and dt > slow:
-                problem = f"slow: {dt:.2f} s"
-            if problem:
-                findings += 1
-                stem = out / f"case-finding{findings:03d}"
-                stem.with_suffix(".toml").write_bytes(data)
-                stem.with_suffix(".txt").write_text(f"seed file {src.name}, round {rounds}\n{problem}\n")
+            return (lambda: load_case(path)), "", ".toml"
+
+        rounds, findings, worst = fuzz_rounds(blobs, rng, minutes, out, slow, hang, mutate_fn=mutate,
+                                              attempt=attempt, ours=SectionwaveError, prefix="case-finding")
     print(f"{rounds} rounds from {len(blobs)} seed case files in {minutes:g} min (seed {seed}): "
           f"{findings} finding(s); slowest round {worst[0]:.2f} s (from {worst[1]})")
     return 1 if findings else 0

@@ -29,6 +29,7 @@ import tempfile
 import time
 import traceback
 import warnings
+from collections.abc import Callable
 from pathlib import Path
 from types import FrameType
 
@@ -87,6 +88,64 @@ def mutate(data: bytes, rng: random.Random) -> bytes:
     return data[:pos] + junk + data[pos:]
 
 
+def fuzz_rounds(
+    blobs: list[tuple[Path, bytes]],
+    rng: random.Random,
+    minutes: float,
+    out: Path,
+    slow: float,
+    hang: float,
+    *,
+    mutate_fn: Callable[[bytes, random.Random], bytes],
+    attempt: Callable[[Path, bytes, random.Random], tuple[Callable[[], object], str, str]],
+    ours: type[BaseException],
+    prefix: str,
+) -> tuple[int, int, tuple[float, str]]:
+    """Mutate seeds and run ``attempt`` until the time is up; keep what is not one of ``ours`` errors.
+
+    ``attempt(seed_path, data, rng)`` writes ``data`` where the reader will
+    find it and returns the call to make, a note for the finding and the
+    suffix its file gets. Anything but ``ours`` raised, a hang (SIGALRM
+    after ``hang`` s) or a round slower than ``slow`` s is a finding, kept
+    in ``out`` as ``PREFIXnnn`` with the input and a ``.txt`` report.
+    Returns the rounds, the findings and the slowest round (seconds, seed).
+    """
+    signal.signal(signal.SIGALRM, _alarm)
+    deadline = time.monotonic() + 60.0 * minutes
+    rounds = findings = 0
+    worst = (0.0, "")
+    while time.monotonic() < deadline:
+        src, data = rng.choice(blobs)
+        for _ in range(rng.randrange(1, 4)):
+            data = mutate_fn(data, rng)
+        call, note, suffix = attempt(src, data, rng)
+        problem = ""
+        t0 = time.perf_counter()
+        signal.setitimer(signal.ITIMER_REAL, hang)
+        try:
+            call()
+        except ours:
+            pass
+        except _Hang:
+            problem = f"hang (stopped after {hang:g} s)"
+        except Exception:  # noqa: BLE001 - the point of fuzzing
+            problem = traceback.format_exc()
+        finally:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+        dt = time.perf_counter() - t0
+        rounds += 1
+        if dt > worst[0]:
+            worst = (dt, src.name)
+        if not problem and dt > slow:
+            problem = f"slow: {dt:.2f} s"
+        if problem:
+            findings += 1
+            stem = out / f"{prefix}{findings:03d}"
+            stem.with_suffix(suffix).write_bytes(data)
+            stem.with_suffix(".txt").write_text(f"seed file {src.name}{note}, round {rounds}\n{problem}\n")
+    return rounds, findings, worst
+
+
 def run(minutes: float, seed: int, out: Path, slow: float, hang: float) -> int:
     from sectionwave.importers import SectionwaveError, clean_drawing, read_drawing
 
@@ -97,43 +156,16 @@ def run(minutes: float, seed: int, out: Path, slow: float, hang: float) -> int:
     blobs = [(p, p.read_bytes()) for p in seeds]
     rng = random.Random(seed)
     out.mkdir(parents=True, exist_ok=True)
-    signal.signal(signal.SIGALRM, _alarm)
-    deadline = time.monotonic() + 60.0 * minutes
-    rounds = findings = 0
-    worst = (0.0, "")
     with tempfile.TemporaryDirectory() as tmp:
-        while time.monotonic() < deadline:
-            src, data = rng.choice(blobs)
-            for _ in range(rng.randrange(1, 4)):
-                data = mutate(data, rng)
+
+        def attempt(src: Path, data: bytes, rng: random.Random) -> tuple[Callable[[], object], str, str]:
             path = Path(tmp) / f"case{src.suffix}"
             path.write_bytes(data)
             units = "mm" if rng.random() < 0.5 else None
-            problem = ""
-            t0 = time.perf_counter()
-            signal.setitimer(signal.ITIMER_REAL, hang)
-            try:
-                clean_drawing(read_drawing(path, units=units))
-            except SectionwaveError:
-                pass
-            except _Hang:
-                problem = f"hang (stopped after {hang:g} s)"
-            except Exception:  # noqa: BLE001 - the point of fuzzing
-                problem = traceback.format_exc()
-            finally:
-                signal.setitimer(signal.ITIMER_REAL, 0)
-            dt = time.perf_counter() - t0
-            rounds += 1
-            if dt > worst[0]:
-                worst = (dt, src.name)
-            if not problem and dt > slow:
-                problem = f"slow: {dt:.2f} s"
-            if problem:
-                findings += 1
-                stem = out / f"finding{findings:03d}"
-                stem.with_suffix(src.suffix).write_bytes(data)
-                stem.with_suffix(".txt").write_text(
-                    f"seed file {src.name}, units={units!r}, round {rounds}\n{problem}\n")
+            return (lambda: clean_drawing(read_drawing(path, units=units))), f", units={units!r}", src.suffix
+
+        rounds, findings, worst = fuzz_rounds(blobs, rng, minutes, out, slow, hang, mutate_fn=mutate,
+                                              attempt=attempt, ours=SectionwaveError, prefix="finding")
     print(f"{rounds} rounds from {len(blobs)} seed files in {minutes:g} min (seed {seed}): "
           f"{findings} finding(s); slowest round {worst[0]:.2f} s (from {worst[1]})")
     return 1 if findings else 0
