@@ -771,16 +771,23 @@ def _solver(sr: _Reader) -> SolverOptions:
                          cast(Literal["auto", "dense", "fast"], method))
 
 
+def _section(top: _Reader, source: str, name: str, example: str) -> _Reader | None:
+    """The reader of an optional ``[name]`` table (None when absent); refused when it is not a table."""
+    if not top.has(name):
+        return None
+    doc = top.table[name]
+    if not isinstance(doc, Mapping):
+        raise top.fail(name, f"must be a table: [{name}] {example}")
+    return _Reader(source, doc, name, KNOWN_KEYS[name])
+
+
 def _range_profile(
     top: _Reader, source: str, freqs: tuple[float, ...], incidents: list[IncidentWave], adaptive: bool,
 ) -> RangeProfileRequest | None:
     """``[range_profile]``: refused unless the case sweeps frequency uniformly with plane waves."""
-    if not top.has("range_profile"):
+    r = _section(top, source, "range_profile", 'window = "hann"')
+    if r is None:
         return None
-    doc = top.table["range_profile"]
-    if not isinstance(doc, Mapping):
-        raise top.fail("range_profile", 'must be a table: [range_profile] window = "hann"')
-    r = _Reader(source, doc, "range_profile", KNOWN_KEYS["range_profile"])
     window = r.text("window", "hann", choices=WINDOWS)
     sidelobe = r.number("sidelobe_db", 35.0, positive=True)
     padding = r.get("padding", 8)
@@ -857,12 +864,9 @@ def _image(
     top: _Reader, source: str, freqs: tuple[float, ...], incidents: list[IncidentWave]
 ) -> ImageRequest | None:
     """``[image]``: a grid like ``[near_field]``'s, window and dynamic range; the case's sweep is the aperture."""
-    if not top.has("image"):
+    r = _section(top, source, "image", "x_m = [x0, x1], y_m = [y0, y1], spacing_m = ...")
+    if r is None:
         return None
-    doc = top.table["image"]
-    if not isinstance(doc, Mapping):
-        raise top.fail("image", "must be a table: [image] x_m = [x0, x1], y_m = [y0, y1], spacing_m = ...")
-    r = _Reader(source, doc, "image", KNOWN_KEYS["image"])
     x, y = _grid(r)
     if x.size * y.size > 4_000_000:
         raise r.fail("spacing_m" if r.has("spacing_m") else "count",

@@ -21,7 +21,6 @@ Exit code 0 when nothing was found, 1 otherwise.
 
 from __future__ import annotations
 
-import argparse
 import logging
 import random
 import re
@@ -34,7 +33,7 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests" / "importers"))
-from fuzz_drawings import fuzz_rounds  # noqa: E402 - the drawing fuzzer's round loop, shared
+from fuzz_drawings import command_line, fuzz_rounds  # noqa: E402 - the drawing fuzzer's loop, shared
 
 SEED_DIRS = [ROOT / "samples", ROOT / "tests" / "data" / "bad"]
 VALUES = [b"nan", b"inf", b"-inf", b"0", b"-0", b"-1", b"1e308", b"-1e308", b"1e-320", b"1e400",
@@ -131,14 +130,7 @@ def run(minutes: float, seed: int, out: Path, slow: float, hang: float) -> int:
 
 def main(argv: list[str] | None = None) -> int:
     """Command line of the fuzzer."""
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--minutes", type=float, default=1.0)
-    ap.add_argument("--seed", type=int, default=1)
-    ap.add_argument("--out", type=Path, default=Path("fuzz-findings"))
-    ap.add_argument("--slow", type=float, default=2.0)
-    ap.add_argument("--hang", type=float, default=30.0)
-    args = ap.parse_args(argv)
-    return run(args.minutes, args.seed, args.out, args.slow, args.hang)
+    return command_line(run, __doc__ or "", argv)
 
 
 if __name__ == "__main__":

@@ -171,16 +171,22 @@ def run(minutes: float, seed: int, out: Path, slow: float, hang: float) -> int:
     return 1 if findings else 0
 
 
-def main(argv: list[str] | None = None) -> int:
-    """Command line of the fuzzer."""
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+def command_line(run_fn: Callable[[float, int, Path, float, float], int], doc: str,
+                 argv: list[str] | None = None) -> int:
+    """Command line shared by the fuzzers: --minutes, --seed, --out, --slow, --hang."""
+    ap = argparse.ArgumentParser(description=doc.splitlines()[0])
     ap.add_argument("--minutes", type=float, default=1.0)
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--out", type=Path, default=Path("fuzz-findings"))
     ap.add_argument("--slow", type=float, default=2.0)
     ap.add_argument("--hang", type=float, default=30.0)
     args = ap.parse_args(argv)
-    return run(args.minutes, args.seed, args.out, args.slow, args.hang)
+    return run_fn(args.minutes, args.seed, args.out, args.slow, args.hang)
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Command line of the fuzzer."""
+    return command_line(run, __doc__ or "", argv)
 
 
 if __name__ == "__main__":
