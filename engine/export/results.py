@@ -27,6 +27,7 @@ import json
 import math
 import platform
 from dataclasses import replace
+from functools import cached_property
 from pathlib import Path
 from typing import Any
 
@@ -68,6 +69,34 @@ def _surface(result: RunResult, fr: FrequencySolution) -> dict[str, np.ndarray]:
     return surface_quantities(problem.field, fr.frequency_hz, s.u, s.dudn, problem.medium.density_kg_m3)
 
 
+class _Derived:
+    """What a write derives from a run once and several outputs share.
+
+    The range profiles and the image feed their files and summary.json; the
+    backscatter densities feed surface.csv, the boundary VTU, a plot and the
+    body shares in summary.json.
+    """
+
+    def __init__(self, result: RunResult, options: OutputOptions) -> None:
+        self.result = result
+        self.options = options
+        self._hot: dict[int, np.ndarray | None] = {}
+
+    @cached_property
+    def profile(self) -> tuple[RangeProfile, list[int]] | None:
+        return _profile(self.result, self.options)
+
+    @cached_property
+    def image(self) -> RadarImage | None:
+        return _radar_image(self.result, self.options)
+
+    def backscatter(self, fr: FrequencySolution) -> np.ndarray | None:
+        key = id(fr)
+        if key not in self._hot:
+            self._hot[key] = _backscatter(self.result, fr)
+        return self._hot[key]
+
+
 def _profile(result: RunResult, options: OutputOptions) -> tuple[RangeProfile, list[int]] | None:
     """The down-range profiles of every plane wave over the run's frequencies (None: not asked for)."""
     request = options.range_profile
@@ -80,9 +109,10 @@ def _profile(result: RunResult, options: OutputOptions) -> tuple[RangeProfile, l
     return range_profile(freqs, mono, result.problem.medium.wave_speed_m_s, request), plane
 
 
-def _write_range_profile(result: RunResult, out_dir: Path, options: OutputOptions) -> list[str]:
+def _write_range_profile(derived: _Derived, out_dir: Path) -> list[str]:
     """range_profile.csv (from_deg, range_m, magnitude, magnitude_db) and its plot."""
-    found = _profile(result, options)
+    result, options = derived.result, derived.options
+    found = derived.profile
     if found is None:
         return []
     prof, plane = found
@@ -109,8 +139,9 @@ def _write_range_profile(result: RunResult, out_dir: Path, options: OutputOption
     return written
 
 
-def _range_summary(result: RunResult, options: OutputOptions) -> dict[str, Any] | None:
-    found = _profile(result, options)
+def _range_summary(derived: _Derived) -> dict[str, Any] | None:
+    result, options = derived.result, derived.options
+    found = derived.profile
     if found is None or options.range_profile is None:
         return None
     prof = found[0]
@@ -133,9 +164,10 @@ def _radar_image(result: RunResult, options: OutputOptions) -> RadarImage | None
     return back_projection(freqs, from_deg, mono, result.problem.medium.wave_speed_m_s, request)
 
 
-def _write_image(result: RunResult, out_dir: Path, options: OutputOptions, conv: TimeConvention) -> list[str]:
+def _write_image(derived: _Derived, out_dir: Path, conv: TimeConvention) -> list[str]:
     """image.csv (x_m, y_m, magnitude, magnitude_db), image.vtu and image.png with the outlines."""
-    img = _radar_image(result, options)
+    result, options = derived.result, derived.options
+    img = derived.image
     if img is None or options.image is None:
         return []
     req = options.image
@@ -165,8 +197,9 @@ def _write_image(result: RunResult, out_dir: Path, options: OutputOptions, conv:
     return written
 
 
-def _image_summary(result: RunResult, options: OutputOptions) -> dict[str, Any] | None:
-    img = _radar_image(result, options)
+def _image_summary(derived: _Derived) -> dict[str, Any] | None:
+    options = derived.options
+    img = derived.image
     if img is None or options.image is None:
         return None
     return {"window": options.image.window, "down_range_resolution_m": img.down_range_m,
@@ -202,12 +235,13 @@ def _finite_length_plot(
     return [name]
 
 
-def _backscatter_plot(result: RunResult, out_dir: Path, wsel: list[int], head: str) -> list[str]:
+def _backscatter_plot(derived: _Derived, out_dir: Path, wsel: list[int], head: str) -> list[str]:
     """backscatter_map.png: where the echo of one plane wave comes from, along the outline (last frequency)."""
     from .plots import plot_boundary_values
 
+    result = derived.result
     fr = result.frequencies[-1]
-    dens = _backscatter(result, fr)
+    dens = derived.backscatter(fr)
     plane = [m for m in wsel if fr.incidents[m].is_plane]
     if dens is None or not plane:
         return []
@@ -238,13 +272,13 @@ def _backscatter(result: RunResult, fr: FrequencySolution) -> np.ndarray | None:
     return dens
 
 
-def _backscatter_shares(result: RunResult, fr: FrequencySolution) -> list[dict[str, Any]] | None:
+def _backscatter_shares(derived: _Derived, fr: FrequencySolution) -> list[dict[str, Any]] | None:
     """Per plane wave: each body's share of the backscattered far field (Re(F_b conj F) / |F|^2, summing to 1)."""
-    dens = _backscatter(result, fr)
+    dens = derived.backscatter(fr)
     if dens is None:
         return None
     mesh = fr.surface().mesh
-    names = [s.name for s in result.problem.scatterers]
+    names = [s.name for s in derived.result.problem.scatterers]
     out = []
     for m, wave in enumerate(fr.incidents):
         if not wave.is_plane:
@@ -272,6 +306,7 @@ def write_run(
     of the files written (relative to ``out_dir``).
     """
     options = options or OutputOptions()
+    derived = _Derived(result, options)
     problem = result.problem
     names = [s.name for s in problem.scatterers]
     conv: TimeConvention = convention or options.time_convention
@@ -305,7 +340,7 @@ def write_run(
         surf = fr.surface()
         mesh = surf.mesh
         phys = _surface(result, fr)
-        hot = _backscatter(result, fr)
+        hot = derived.backscatter(fr)
         n = mesh.n_nodes
         for m, wave in enumerate(fr.incidents):
             block: dict[str, Any] = {
@@ -346,20 +381,20 @@ def write_run(
     if surf_rows:
         write_csv(out_dir / "surface.csv", {k: np.concatenate(v) for k, v in surf_rows.items()})
         written.append("surface.csv")
-    written += _write_range_profile(result, out_dir, options)  # nothing unless [range_profile] asks
-    written += _write_image(result, out_dir, options, conv)  # nothing unless [image] asks
+    written += _write_range_profile(derived, out_dir)  # nothing unless [range_profile] asks
+    written += _write_image(derived, out_dir, conv)  # nothing unless [image] asks
     if options.vtk:
-        written += _write_boundary_vtk(result, out_dir, conv, per_incidence=options.vtk_per_incidence)
+        written += _write_boundary_vtk(derived, out_dir, conv, per_incidence=options.vtk_per_incidence)
     if any(fr.near_field is not None for fr in result.frequencies):
         written += _write_near_fields(result, out_dir, conv, options)
     plot_notes: list[str] = []
     if options.plots:
-        written += _write_plots(result, out_dir, options, plot_notes)
+        written += _write_plots(derived, out_dir, plot_notes)
     written.append("README.txt")
     atomic_write_text(out_dir / "README.txt", folder_readme(result, options, conv, written + ["summary.json"]))
     if plot_notes:
         options = replace(options, notes=(*options.notes, *plot_notes))
-    summary = summary_dict(result, options, conv, written + ["summary.json"])
+    summary = summary_dict(result, options, conv, written + ["summary.json"], derived=derived)
     atomic_write_text(out_dir / "summary.json", json.dumps(summary, indent=2, allow_nan=False, default=_json_default) + "\n")
     return written + ["summary.json"]
 
@@ -384,11 +419,13 @@ def _finite(x: float | None) -> float | None:
 
 
 def summary_dict(
-    result: RunResult, options: OutputOptions, convention: TimeConvention, files: list[str]
+    result: RunResult, options: OutputOptions, convention: TimeConvention, files: list[str],
+    *, derived: _Derived | None = None,
 ) -> dict[str, Any]:
-    """The content of summary.json (schema ``SUMMARY_SCHEMA``)."""
+    """The content of summary.json (schema ``SUMMARY_SCHEMA``); ``derived`` reuses a write's products."""
     from .. import __version__
 
+    derived = derived or _Derived(result, options)
     problem = result.problem
     freqs = []
     for fr in result.frequencies:
@@ -405,7 +442,7 @@ def summary_dict(
             "condition_estimate": _finite(fr.condition_estimate),
             "solver_method": fr.solver_method,
             "iterations": fr.iterations,
-            "backscatter_shares": _backscatter_shares(result, fr),
+            "backscatter_shares": _backscatter_shares(derived, fr),
             "timings_s": fr.timings_s,
             "warnings": fr.warnings,
         }
@@ -457,8 +494,8 @@ def summary_dict(
         "drawing_audit": options.drawing_audit,
         "notes": list(options.notes),
         "warnings": list(options.warnings),
-        "range_profile": _range_summary(result, options),
-        "image": _image_summary(result, options),
+        "range_profile": _range_summary(derived),
+        "image": _image_summary(derived),
         "finite_length": None if options.length_m is None else {
             "length_m": options.length_m,
             "columns": ["target_strength_db"] if problem.field == "acoustic" else ["rcs_m2", "rcs_dbsm"],
@@ -498,7 +535,7 @@ def _body_summary(b: Scatterer) -> dict[str, Any]:
     return entry
 
 
-def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention, *, per_incidence: bool = True) -> list[str]:
+def _write_boundary_vtk(derived: _Derived, out_dir: Path, conv: TimeConvention, *, per_incidence: bool = True) -> list[str]:
     """Boundary ``.vtu`` files: one per (frequency, incident wave), or one per frequency.
 
     With ``per_incidence=False`` each frequency's file holds every incident
@@ -507,13 +544,14 @@ def _write_boundary_vtk(result: RunResult, out_dir: Path, conv: TimeConvention, 
     """
     from .vtk import write_boundary_vtu, write_sweep_pvd
 
+    result = derived.result
     runs = []
     names = []
     for nf, fr in enumerate(result.frequencies):
         surf = fr.surface()
         mesh = surf.mesh
         phys = _surface(result, fr)
-        hot = _backscatter(result, fr)
+        hot = derived.backscatter(fr)
         groups = [[m] for m in range(len(fr.incidents))] if per_incidence else [list(range(len(fr.incidents)))]
         for group in groups:
             fields: dict[str, np.ndarray] = {}
@@ -686,8 +724,9 @@ def _selection_note(result: RunResult, fsel: list[int], wsel: list[int]) -> str 
             "every curve is in farfield.csv; choose others with [output] plot_frequencies_hz and plot_from_deg")
 
 
-def _write_plots(result: RunResult, out_dir: Path, options: OutputOptions, notes: list[str]) -> list[str]:
+def _write_plots(derived: _Derived, out_dir: Path, notes: list[str]) -> list[str]:
     """Echo-width plots (bistatic, monostatic, against frequency) and the mesh preview."""
+    result, options = derived.result, derived.options
     from .plots import (
         plot_echo_width_cartesian,
         plot_echo_width_polar,
@@ -726,7 +765,7 @@ def _write_plots(result: RunResult, out_dir: Path, options: OutputOptions, notes
         plot_echo_width_cartesian(out_dir / "monostatic.png", angles, mono, title=title)
         written += ["monostatic_polar.png", "monostatic.png"]
         written += _finite_length_plot(result, out_dir, options, plane, head)
-    written += _backscatter_plot(result, out_dir, wsel, head)
+    written += _backscatter_plot(derived, out_dir, wsel, head)
     if len(frs) > 1 and plane:
         curves = {}
         for m in [m for m in wsel if m in plane] or plane[:1]:
