@@ -24,9 +24,10 @@ from __future__ import annotations
 
 import math
 import time
+import weakref
 from dataclasses import dataclass
 from functools import lru_cache
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -173,8 +174,20 @@ def fast_cost(system: DiscreteSystem, n_rhs: int = 1) -> MethodCost:
     return MethodCost("fast", memory, seconds, _solve.fits_in_memory(memory))
 
 
+#: Plans already made, per system (a solve asks for the memory, then prepares: one plan).
+_PLANS: weakref.WeakKeyDictionary[Any, dict[tuple[str, int], SystemPlan]] = weakref.WeakKeyDictionary()
+
+
 def plan_system(system: DiscreteSystem, method: Method = "auto", n_rhs: int = 1) -> SystemPlan:
-    """Both methods' costs on ``system`` and the one to use."""
+    """Both methods' costs on ``system`` and the one to use (made once per system and request)."""
+    known = _PLANS.setdefault(system, {})
+    key = (method, n_rhs)
+    if key not in known:
+        known[key] = _plan(system, method, n_rhs)
+    return known[key]
+
+
+def _plan(system: DiscreteSystem, method: Method, n_rhs: int) -> SystemPlan:
     costs = (dense_cost(system, n_rhs), fast_cost(system, n_rhs))
     dense, fast = costs
     if method != "auto":
