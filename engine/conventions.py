@@ -20,7 +20,7 @@ from __future__ import annotations
 from typing import Literal
 
 __all__ = [
-    "FIELD_DESCRIPTION","CONVENTION_TEXT", "DB_FLOOR", "TIME_CONVENTIONS", "TimeConvention"]
+    "CONVENTION_TEXT", "DB_FLOOR", "FIELD_DESCRIPTION", "FIELD_WORDS", "TIME_CONVENTIONS", "TimeConvention"]
 
 TimeConvention = Literal["engineering", "physics"]
 
@@ -41,9 +41,11 @@ CONVENTION_TEXT = {
 }
 
 
-#: Every output that carries a field says in words what it is.
-FIELD_DESCRIPTION = {
-    "tm": "TM: electric field along the body's axis (u = E_z)",
-    "te": "TE: magnetic field along the body's axis (u = H_z)",
-    "acoustic": "sound: acoustic pressure (u = p)",
+#: Per field kind: its short name, the symbol of ``u`` and, in words, what ``u`` is.
+FIELD_WORDS = {
+    "tm": ("TM", "E_z", "electric field along the body's axis"),
+    "te": ("TE", "H_z", "magnetic field along the body's axis"),
+    "acoustic": ("sound", "p", "acoustic pressure"),
 }
+#: Every output that carries a field says in words what it is.
+FIELD_DESCRIPTION = {kind: f"{code}: {words} (u = {symbol})" for kind, (code, symbol, words) in FIELD_WORDS.items()}

@@ -33,7 +33,7 @@ from typing import Any
 
 import numpy as np
 
-from ..conventions import CONVENTION_TEXT, DB_FLOOR, FIELD_DESCRIPTION, TimeConvention
+from ..conventions import CONVENTION_TEXT, DB_FLOOR, FIELD_DESCRIPTION, FIELD_WORDS, TimeConvention
 from ..fields import (
     FINITE_LENGTH_VALIDITY,
     backscatter_density,
@@ -231,7 +231,7 @@ def _finite_length_plot(
     what = "target strength (dB re 1 m)" if sound else "radar cross-section (dBsm)"
     plot_echo_width_cartesian(out_dir / name, angles, curves, ylabel=what,
                               title=f"{head}{'TS' if sound else 'RCS'}, {options.length_m:g} m long, broadside, "
-                                    f"{_FIELD_WORDS[result.problem.field][0]}")
+                                    f"{FIELD_WORDS[result.problem.field][0]}")
     return [name]
 
 
@@ -591,7 +591,7 @@ def _write_near_fields(result: RunResult, out_dir: Path, conv: TimeConvention, o
     runs = []
     outlines = [s.body.outer.sample(64) for s in result.problem.scatterers]
     fsel, wsel = _pick_for_plots(result, options)
-    field, symbol = _FIELD_WORDS[result.problem.field]
+    field, symbol, _ = FIELD_WORDS[result.problem.field]
     head = f"{options.title}: " if options.title and options.title != "untitled" else ""
     quantity = options.field_map
     bar = {"abs": f"|total {symbol}| per unit incident amplitude",
@@ -665,7 +665,6 @@ def _db_floored(farfield: np.ndarray, wavelength_m: float) -> np.ndarray:
 
 #: Most curves one plot holds; beyond it an evenly spread selection is drawn and the rest named in a note.
 MAX_CURVES = 12
-_FIELD_WORDS = {"tm": ("TM", "E_z"), "te": ("TE", "H_z"), "acoustic": ("sound", "p")}
 
 
 def frequency_text(frequency_hz: float) -> str:
@@ -737,7 +736,8 @@ def _write_plots(derived: _Derived, out_dir: Path, notes: list[str]) -> list[str
     written = []
     frs = result.frequencies
     fr0 = frs[0]
-    field = FIELD_DESCRIPTION[result.problem.field].split(" (u =")[0]  # the field in words
+    code, _, words = FIELD_WORDS[result.problem.field]
+    field = f"{code}: {words}"
     head = f"{options.title}: " if options.title and options.title != "untitled" else ""
     fsel, wsel = _pick_for_plots(result, options)
     note = _selection_note(result, fsel, wsel)
@@ -814,7 +814,7 @@ def _monostatic_rows(
 
 def folder_readme(result: RunResult, options: OutputOptions, convention: TimeConvention, files: list[str]) -> str:
     """README.txt of a results folder: what every file and column holds, with units."""
-    field, symbol = _FIELD_WORDS[result.problem.field]
+    field, symbol, _ = FIELD_WORDS[result.problem.field]
     amp = {"tm": "per unit incident E_z (V/m per V/m)", "te": "per unit incident H_z (A/m per A/m)",
            "acoustic": "per unit incident pressure (Pa per Pa)"}[result.problem.field]
     time_factor = "exp(+j w t)" if convention == "engineering" else "exp(-i w t) (complex conjugates of the engine's values)"
