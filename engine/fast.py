@@ -39,10 +39,7 @@ recycling
     SIAM J. Numer. Anal. 36 (1999); Parks et al., SIAM J. Sci. Comput. 28
     (2006)), so many incident waves on one body share their work.
 
-Conventions: pyfmmlib sums ``(i/4) H0^(1)(k r)`` (``exp(-i w t)``); ours is
-``G = -(j/4) H0^(2)(k r) = conj((i/4) H0^(1)(conj(k) r))`` for real ``r``,
-so every FMM call is made with ``conj(k)`` and conjugated strengths, and
-its results are conjugated back.
+The FMM sums and their convention mapping live in ``multipole``.
 """
 
 from __future__ import annotations
@@ -57,25 +54,22 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 from numpy.typing import NDArray
-from sectionwave.importers.errors import SectionwaveError, SectionwaveWarning
+from sectionwave.importers.errors import SectionwaveWarning
 
 from .compression import CompressedSystem
 from .kernels import kernel_matrices
 from .mesh import PanelMesh
-from .multipole import FMM_ERRORS, fmm_precision, fmm_sums
+from .multipole import fmm_precision, fmm_sums
 from .nearfield import serial_numba
 from .operators import near_corrections, near_pairs, self_panel_blocks
 from .quadrature import gauss_legendre, interpolation_matrix, near_weights
 from .system import BoundarySystem, DiscreteSystem, Region
 
 __all__ = [
-    "FMM_ERRORS",
     "FastMultipole",
-    "FastSolverError",
     "FastSystem",
     "GmresReport",
     "NotConvergedWarning",
-    "fmm_precision",
     "hypersingular_kernel",
     "near_blocks",
 ]
@@ -92,10 +86,6 @@ CYCLE_LENGTH = 150
 MAX_CYCLES = 20
 #: Share of the available memory the recycled Krylov directions may take.
 RECYCLE_MEMORY_SHARE = 0.25
-
-
-class FastSolverError(SectionwaveError):
-    """The fast solver failed (FMM error, or GMRES did not converge)."""
 
 
 def hypersingular_kernel(

@@ -48,6 +48,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from .kernels import kernel_matrices
 from .mesh import PanelMesh
+from .multipole import fmm_at_targets, fmm_precision, fmm_seconds
 from .operators import near_corrections, near_pairs
 from .quadrature import NEAR_RADIUS, _arg_change, gauss_legendre, interpolation_matrix, near_weights
 
@@ -103,11 +104,7 @@ def _far_part(
     m = points.shape[0]
     n = mesh.n_nodes
     kd = abs(k) * float(np.hypot(*np.ptp(np.vstack([points, mesh.nodes]), axis=0)))
-    from .multipole import fmm_seconds
-
     if DIRECT_PAIR_S * n * m > FMM_WORTH * fmm_seconds(n + m, kd):
-        from .multipole import fmm_at_targets, fmm_precision
-
         src, nrm, tgt = (np.asfortranarray(v.T) for v in (mesh.nodes, mesh.normals, points))
         return np.column_stack([
             fmm_at_targets(src, nrm, k, -b[:, j], a[:, j], fmm_precision(1e-13), tgt) for j in range(a.shape[1])

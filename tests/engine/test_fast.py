@@ -24,11 +24,12 @@ import pytest
 import scipy.special as ss
 from sectionwave.engine import parse_case, solve_problem
 from sectionwave.engine import solve as solve_mod
-from sectionwave.engine.fast import FastMultipole, FastSystem, fmm_sums, hypersingular_kernel
+from sectionwave.engine.fast import FastMultipole, FastSystem, hypersingular_kernel
 from sectionwave.engine.fields import far_field
 from sectionwave.engine.formulations import Dirichlet, Neumann
 from sectionwave.engine.kernels import kernel_matrices
 from sectionwave.engine.mesh import BoundaryContour, build_panels
+from sectionwave.engine.multipole import fmm_sums
 from sectionwave.engine.plan import AutoSolver, plan_system
 from sectionwave.engine.problem import IncidentWave
 from sectionwave.engine.solve import DenseLU, solve_boundary
@@ -180,6 +181,7 @@ _PEAK = textwrap.dedent(
     """
     import json, math, sys
     from sectionwave.engine.mesh import BoundaryContour, build_panels
+from sectionwave.engine.multipole import fmm_sums
     from sectionwave.engine.system import BoundarySystem
     from sectionwave.engine.formulations import Dirichlet, Neumann
     from sectionwave.engine.fast import FastMultipole
