@@ -92,7 +92,7 @@ from .problem import (
     Scatterer,
     SolverOptions,
 )
-from .products import WINDOWS, ImageRequest, RangeProfileRequest, uniform_step
+from .products import WINDOWS, ImageRequest, RangeProfileRequest, Window, uniform_step
 
 __all__ = ["Case", "CaseError", "load_case", "parse_case", "refuse_absurd", "to_si"]
 
@@ -802,7 +802,7 @@ def _range_profile(
         )
     if not any(w.is_plane for w in incidents):
         raise top.fail("range_profile", "needs plane waves ([[incident]] kind = \"plane\")")
-    return RangeProfileRequest(cast(Literal["hann", "rectangular", "taylor"], window), sidelobe, int(padding))
+    return RangeProfileRequest(cast(Window, window), sidelobe, int(padding))
 
 
 def _output(
@@ -883,7 +883,7 @@ def _image(
             f"{len(plane)} plane waves): give frequency_hz = {{ start, stop, count }} and "
             "from_deg = { start, stop, count }",
         )
-    return ImageRequest(x, y, cast(Literal["hann", "rectangular", "taylor"], window), sidelobe, dynamic)
+    return ImageRequest(x, y, cast(Window, window), sidelobe, dynamic)
 
 
 def _near_field(r: _Reader, base_dir: Path | None, incidents: list[IncidentWave]) -> NearFieldRequest:

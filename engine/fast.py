@@ -485,9 +485,10 @@ class FastSystem:
         """The system's right-hand sides, with ``B u_inc / |k|`` on the radiation-condition rows."""
         rhs = self.base.right_hand_sides(u_inc, dudn_inc)
         kr = abs(self.base.k)
-        c1, c2, _, _ = self.base._simple_vectors() if self.rows else (None, None, None, None)
+        if not self.rows:
+            return rhs
+        _, c2, _, _ = self.base._simple_vectors()  # the E2 row weights (one region, one unknown per node)
         for nodes, rows in self.rows:
-            assert c2 is not None
             rhs[nodes] = c2[nodes, None] * dudn_inc[nodes] + rows.apply(u_inc[nodes]) / kr
         return rhs
 

@@ -31,7 +31,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 __all__ = [
-    "WINDOWS", "ImageRequest", "RadarImage", "RangeProfile", "RangeProfileRequest", "back_projection",
+    "WINDOWS", "ImageRequest", "Window", "RadarImage", "RangeProfile", "RangeProfileRequest", "back_projection",
     "range_profile", "uniform_step",
 ]
 
@@ -39,6 +39,7 @@ ComplexArray = NDArray[np.complex128]
 FloatArray = NDArray[np.float64]
 
 WINDOWS = ("hann", "rectangular", "taylor")
+Window = Literal["hann", "rectangular", "taylor"]
 #: Relative deviation of frequency steps still taken as uniform.
 STEP_TOLERANCE = 1e-6
 
@@ -47,7 +48,7 @@ STEP_TOLERANCE = 1e-6
 class RangeProfileRequest:
     """``[range_profile]``: window, Taylor side-lobe level (dB, positive) and zero-padding factor."""
 
-    window: Literal["hann", "rectangular", "taylor"] = "hann"
+    window: Window = "hann"
     sidelobe_db: float = 35.0
     padding: int = 8
 
@@ -74,14 +75,14 @@ def uniform_step(frequencies_hz: FloatArray) -> float | None:
     return float(steps.mean())
 
 
-def _window(request: RangeProfileRequest, n: int) -> FloatArray:
+def _window(kind: Window, sidelobe_db: float, n: int) -> FloatArray:
     from scipy.signal import windows
 
-    if request.window == "rectangular":
+    if kind == "rectangular":
         return np.ones(n)
-    if request.window == "hann":
+    if kind == "hann":
         return windows.hann(n, sym=True) if n > 2 else np.ones(n)
-    return windows.taylor(n, nbar=4, sll=request.sidelobe_db, norm=True, sym=True)
+    return windows.taylor(n, nbar=4, sll=sidelobe_db, norm=True, sym=True)
 
 
 def range_profile(
@@ -99,7 +100,7 @@ def range_profile(
     if step is None:
         raise ValueError("a range profile needs a uniform sweep of at least four frequencies")
     n = f.size
-    w = _window(request, n)
+    w = _window(request.window, request.sidelobe_db, n)
     n_fft = int(2 ** np.ceil(np.log2(max(n * request.padding, n))))
     data = np.asarray(monostatic, dtype=complex).reshape(n, -1) * w[:, None]
     # |P(R)| = |sum_n w_n F_n exp(+j 4 pi f_n R / c)| at R_m = m c / (2 df n_fft): an inverse DFT
@@ -118,7 +119,7 @@ class ImageRequest:
 
     x_m: FloatArray
     y_m: FloatArray
-    window: Literal["hann", "rectangular", "taylor"] = "hann"
+    window: Window = "hann"
     sidelobe_db: float = 35.0
     dynamic_range_db: float = 40.0
 
@@ -152,8 +153,8 @@ def back_projection(
     fo, ao = np.argsort(f), np.argsort(a)
     f, a = f[fo], a[ao]
     data = np.asarray(monostatic, dtype=complex)[np.ix_(fo, ao)]
-    profile = RangeProfileRequest(request.window, request.sidelobe_db)
-    w = _window(profile, f.size)[:, None] * _window(profile, a.size)[None, :]
+    w = (_window(request.window, request.sidelobe_db, f.size)[:, None]
+         * _window(request.window, request.sidelobe_db, a.size)[None, :])
     weighted = (data * w).ravel()
     k2 = (4 * np.pi * f / wave_speed_m_s)[:, None]  # 2 k
     ux = (k2 * np.cos(a)[None, :]).ravel()
