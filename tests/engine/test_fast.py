@@ -181,7 +181,6 @@ _PEAK = textwrap.dedent(
     """
     import json, math, sys
     from sectionwave.engine.mesh import BoundaryContour, build_panels
-from sectionwave.engine.multipole import fmm_sums
     from sectionwave.engine.system import BoundarySystem
     from sectionwave.engine.formulations import Dirichlet, Neumann
     from sectionwave.engine.fast import FastMultipole

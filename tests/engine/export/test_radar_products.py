@@ -24,7 +24,7 @@ field = "FIELD"
 frequency_hz = FREQ
 [[body]]
 name = "pipe"
-shape = {{ kind = "circle", radius_m = RADIUS }}
+shape = { kind = "circle", radius_m = RADIUS }
 boundary = "BOUNDARY"
 [[incident]]
 kind = "plane"
@@ -39,14 +39,20 @@ surface_csv = false
 """
 
 
+def _run_case(tmp_path, text, name="c"):
+    """Write the case ``text``, run it (exit 0 expected) and return its results folder."""
+    path = tmp_path / f"{name}.toml"
+    path.write_text(text)
+    out = tmp_path / f"{name}-out"
+    assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+    return out
+
+
 def _run(tmp_path, **values):
-    text = CASE.replace("{{", "{").replace("}}", "}")
+    text = CASE
     for key, val in values.items():
         text = text.replace(key, str(val))
-    path = tmp_path / "c.toml"
-    path.write_text(text)
-    out = tmp_path / "out"
-    assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+    out = _run_case(tmp_path, text)
     return read_csv(out / "monostatic.csv"), json.loads((out / "summary.json").read_text()), out
 
 
@@ -55,11 +61,9 @@ def test_rigid_cylinder_target_strength_matches_urick(tmp_path):
     ka = 60.0
     freq = ka * c / (2 * math.pi * a)
     doc = CASE.replace('field = "FIELD"', 'field = "acoustic"\nsound_speed_m_s = 1500.0\ndensity_kg_m3 = 1000.0')
-    path = tmp_path / "c.toml"
-    text = doc.replace("{{", "{").replace("}}", "}").replace("FREQ", repr(freq)).replace("RADIUS", str(a))
-    path.write_text(text.replace("BOUNDARY", "hard").replace("LENGTH", str(length)))
-    assert main(["run", str(path), "--out", str(tmp_path / "out"), "--quiet"]) == 0
-    table = read_csv(tmp_path / "out" / "monostatic.csv")
+    text = doc.replace("FREQ", repr(freq)).replace("RADIUS", str(a))
+    out = _run_case(tmp_path, text.replace("BOUNDARY", "hard").replace("LENGTH", str(length)))
+    table = read_csv(out / "monostatic.csv")
     lam = c / freq
     urick = 10 * math.log10(a * length**2 / (2 * lam))
     # measured 0.0009 dB at ka = 60 (the exact backscatter of a rigid cylinder tends to pi a)
@@ -102,10 +106,7 @@ vtk = false
 
 def test_backscatter_contributions_sum_to_the_monostatic_far_field(tmp_path):
     """Exact identity: the far-field representation summed over the boundary is the far field."""
-    path = tmp_path / "hot.toml"
-    path.write_text(HOT)
-    out = tmp_path / "out"
-    assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+    out = _run_case(tmp_path, HOT, "hot")
     surface = read_csv(out / "surface.csv")
     mono = read_csv(out / "monostatic.csv")
     summary = json.loads((out / "summary.json").read_text())
@@ -167,10 +168,7 @@ def _peaks(ranges, mag, count):
 def test_two_rods_sit_at_their_ranges(tmp_path):
     """Peaks at R = -p . (cos phi, sin phi) within one range bin; resolution c / (2 B) (standard radar practice)."""
     for window in ("hann", "taylor"):
-        path = tmp_path / f"rods_{window}.toml"
-        path.write_text(RODS.replace("WINDOW", window))
-        out = tmp_path / window
-        assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+        out = _run_case(tmp_path, RODS.replace("WINDOW", window), f"rods_{window}")
         table = read_csv(out / "range_profile.csv")
         summary = json.loads((out / "summary.json").read_text())["range_profile"]
         c = 299_792_458.0
@@ -227,10 +225,7 @@ surface_csv = false
 
 def test_image_of_three_rods(tmp_path):
     """The three brightest separated peaks lie on the rods within half a resolution cell (back-projection)."""
-    path = tmp_path / "three.toml"
-    path.write_text(THREE)
-    out = tmp_path / "out"
-    assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+    out = _run_case(tmp_path, THREE, "three")
     table = read_csv(out / "image.csv")
     summary = json.loads((out / "summary.json").read_text())["image"]
     c = 299_792_458.0
@@ -254,9 +249,6 @@ def test_plots_of_the_products(tmp_path):
     text = HOT.replace("plots = false", "plots = true").replace(
         "[output]", "[far_field]\nangles_deg = [0, 90]\nlength_m = 3.0\n[output]").replace(
         "from_deg = [0, 90]", "from_deg = { start = 0, stop = 90, count = 4 }")
-    path = tmp_path / "hot.toml"
-    path.write_text(text)
-    out = tmp_path / "out"
-    assert main(["run", str(path), "--out", str(out), "--quiet"]) == 0
+    out = _run_case(tmp_path, text, "hot")
     for name in ("rcs.png", "backscatter_map.png", "monostatic.png"):
         assert (out / name).stat().st_size > 1000, name
